@@ -1,0 +1,372 @@
+/**
+ * Limited-memory BFGS (L-BFGS) for smooth unconstrained minimisation on Float64Array, with a line search that
+ * enforces the strong Wolfe conditions.
+ *
+ * Method (J. Nocedal & S. J. Wright, Numerical Optimization, 2nd ed., Springer 2006):
+ * - search direction p = −H·g by the two-loop recursion (Algorithm 7.4) over the last `memory` pairs
+ *   (s = x_{k+1} − x_k, y = g_{k+1} − g_k), with the initial matrix H0 = γ I, γ = sᵀy / yᵀy (eq. 7.20);
+ *   a pair with sᵀy ≤ 1e-12·|s||y| is skipped so H stays positive definite;
+ * - step length by Algorithm 3.5 (bracketing) and Algorithm 3.6 ("zoom"), trial steps chosen by safeguarded cubic
+ *   interpolation (section 3.5, eq. 3.59), accepting α only when
+ *     f(x + αp) ≤ f(x) + c1 α gᵀp          (sufficient decrease)  and
+ *     |g(x + αp)ᵀp| ≤ c2 |gᵀp|              (strong curvature condition);
+ * - first step α0 = min(1, 1/|g|) (the direction is then unscaled), α0 = 1 afterwards.
+ *
+ * Stopping: the gradient norm |g|₂ ≤ gradientTolerance; or the objective decreased by less than
+ * `absoluteDecrease` in `stallIterations` consecutive iterations (an absolute test, because objectives like a
+ * negative log posterior are of the order of the pixel count and a relative tolerance never fires); or the
+ * iteration / evaluation budget is spent; or the line search cannot make progress (after one restart along −g).
+ *
+ * Cancellation: `signal` is checked before every evaluation; an aborted signal throws its reason
+ * (an AbortError DOMException by default), leaving no partial result.
+ * Deterministic: no randomness, and the arithmetic order is fixed.
+ */
+
+export type ObjectiveAndGradient = (x: Float64Array, grad: Float64Array) => number;
+
+export interface LbfgsProgress {
+  iteration: number;
+  objective: number;
+  gradNorm: number;
+  evaluations: number;
+}
+
+export interface LbfgsOptions {
+  /** Number of correction pairs kept. @default 8 */
+  memory?: number;
+  /** Stop after this many iterations. @default 1000 */
+  maxIterations?: number;
+  /** Stop after this many objective evaluations. @default 4000 */
+  maxEvaluations?: number;
+  /** Stop when |g|₂ is at or below this. @default 1e-8 */
+  gradientTolerance?: number;
+  /** Stop when f decreased by less than this in `stallIterations` consecutive iterations. @default 0 (off) */
+  absoluteDecrease?: number;
+  /** How many consecutive small decreases stop the run. @default 3 */
+  stallIterations?: number;
+  /** Sufficient-decrease constant c1 of the Wolfe conditions. @default 1e-4 */
+  c1?: number;
+  /** Curvature constant c2 of the strong Wolfe conditions (0 < c1 < c2 < 1). @default 0.9 */
+  c2?: number;
+  /** Most trial steps in one line search. @default 25 */
+  maxLineSearchSteps?: number;
+  /** Called after each accepted iteration. */
+  onProgress?: (progress: LbfgsProgress) => void;
+  /** Cancels the run: the next evaluation throws the signal's reason. */
+  signal?: AbortSignal;
+}
+
+export type LbfgsReason =
+  'gradient-tolerance' | 'absolute-decrease' | 'max-iterations' | 'max-evaluations' | 'line-search-failed';
+
+export interface LbfgsResult {
+  x: Float64Array;
+  f: number;
+  /** Gradient at x. */
+  grad: Float64Array;
+  gradNorm: number;
+  iterations: number;
+  evaluations: number;
+  /** True when a tolerance (gradient or absolute decrease) was met. */
+  converged: boolean;
+  reason: LbfgsReason;
+}
+
+type ResolvedOptions = Required<Omit<LbfgsOptions, 'onProgress' | 'signal'>> &
+  Pick<LbfgsOptions, 'onProgress' | 'signal'>;
+
+function isPositiveInteger(v: number): boolean {
+  return Number.isInteger(v) && v > 0;
+}
+
+/** Applies defaults and rejects out-of-range options with a specific message. */
+export function checkOptions(options: LbfgsOptions = {}): ResolvedOptions {
+  const o: ResolvedOptions = {
+    memory: options.memory ?? 8,
+    maxIterations: options.maxIterations ?? 1000,
+    maxEvaluations: options.maxEvaluations ?? 4000,
+    gradientTolerance: options.gradientTolerance ?? 1e-8,
+    absoluteDecrease: options.absoluteDecrease ?? 0,
+    stallIterations: options.stallIterations ?? 3,
+    c1: options.c1 ?? 1e-4,
+    c2: options.c2 ?? 0.9,
+    maxLineSearchSteps: options.maxLineSearchSteps ?? 25,
+    onProgress: options.onProgress,
+    signal: options.signal,
+  };
+  if (!isPositiveInteger(o.memory))
+    throw new Error(`L-BFGS memory must be a positive integer (got ${o.memory})`);
+  if (!isPositiveInteger(o.maxIterations)) {
+    throw new Error(`L-BFGS maxIterations must be a positive integer (got ${o.maxIterations})`);
+  }
+  if (!isPositiveInteger(o.maxEvaluations)) {
+    throw new Error(`L-BFGS maxEvaluations must be a positive integer (got ${o.maxEvaluations})`);
+  }
+  if (!(o.gradientTolerance >= 0)) {
+    throw new Error(`L-BFGS gradientTolerance must be ≥ 0 (got ${o.gradientTolerance})`);
+  }
+  if (!(o.absoluteDecrease >= 0)) {
+    throw new Error(`L-BFGS absoluteDecrease must be ≥ 0 (got ${o.absoluteDecrease})`);
+  }
+  if (!isPositiveInteger(o.stallIterations)) {
+    throw new Error(`L-BFGS stallIterations must be a positive integer (got ${o.stallIterations})`);
+  }
+  if (!(o.c1 > 0 && o.c1 < o.c2 && o.c2 < 1)) {
+    throw new Error(`L-BFGS line-search constants need 0 < c1 < c2 < 1 (got c1 = ${o.c1}, c2 = ${o.c2})`);
+  }
+  if (!isPositiveInteger(o.maxLineSearchSteps)) {
+    throw new Error(`L-BFGS maxLineSearchSteps must be a positive integer (got ${o.maxLineSearchSteps})`);
+  }
+  return o;
+}
+
+function dot(a: Float64Array, b: Float64Array): number {
+  let s = 0;
+  for (let i = 0; i < a.length; i++) s += a[i]! * b[i]!;
+  return s;
+}
+
+/**
+ * Minimiser of the cubic through (a, fa, da) and (b, fb, db), clamped into [lo + 0.1·w, hi − 0.1·w] of the
+ * interval between a and b (eq. 3.59 of Nocedal & Wright; the bisection fallback when the cubic has no minimum).
+ */
+function cubicStep(a: number, fa: number, da: number, b: number, fb: number, db: number): number {
+  const lo = Math.min(a, b);
+  const hi = Math.max(a, b);
+  const w = hi - lo;
+  const d1 = da + db - (3 * (fa - fb)) / (a - b);
+  const disc = d1 * d1 - da * db;
+  let t = (a + b) / 2;
+  if (disc >= 0) {
+    const d2 = Math.sign(b - a) * Math.sqrt(disc);
+    const denom = db - da + 2 * d2;
+    if (denom !== 0) {
+      const c = b - (b - a) * ((db + d2 - d1) / denom);
+      if (Number.isFinite(c)) t = c;
+    }
+  }
+  return Math.min(Math.max(t, lo + 0.1 * w), hi - 0.1 * w);
+}
+
+interface LineSearchState {
+  /** trial point and its gradient (outputs) */
+  xNew: Float64Array;
+  gNew: Float64Array;
+  fNew: number;
+  alpha: number;
+  evaluations: number;
+}
+
+/**
+ * Algorithm 3.5 (bracketing) with Algorithm 3.6 (zoom). Returns true when a step satisfying the strong Wolfe
+ * conditions was found; the trial point is then in state.xNew / gNew / fNew.
+ */
+function strongWolfeLineSearch(
+  fg: ObjectiveAndGradient,
+  x: Float64Array,
+  f0: number,
+  dg0: number,
+  p: Float64Array,
+  alpha0: number,
+  o: ResolvedOptions,
+  budget: number,
+  state: LineSearchState,
+): boolean {
+  const n = x.length;
+  const { xNew, gNew } = state;
+  state.evaluations = 0;
+  const phi = (alpha: number): [number, number] => {
+    o.signal?.throwIfAborted();
+    for (let i = 0; i < n; i++) xNew[i] = x[i]! + alpha * p[i]!;
+    const f = fg(xNew, gNew);
+    state.evaluations++;
+    return [f, dot(gNew, p)];
+  };
+  const accept = (alpha: number, f: number): boolean => {
+    state.alpha = alpha;
+    state.fNew = f;
+    return true;
+  };
+
+  const zoom = (aLo: number, fLo: number, dLo: number, aHi: number, fHi: number, dHi: number): boolean => {
+    while (state.evaluations < o.maxLineSearchSteps && state.evaluations < budget) {
+      if (Math.abs(aHi - aLo) <= 1e-14 * Math.max(1, Math.abs(aLo))) break;
+      const a = cubicStep(aLo, fLo, dLo, aHi, fHi, dHi);
+      const [fa, da] = phi(a);
+      if (!Number.isFinite(fa) || fa > f0 + o.c1 * a * dg0 || fa >= fLo) {
+        aHi = a;
+        fHi = Number.isFinite(fa) ? fa : Number.MAX_VALUE;
+        dHi = Number.isFinite(da) ? da : 0;
+      } else {
+        if (Math.abs(da) <= -o.c2 * dg0) return accept(a, fa);
+        if (da * (aHi - aLo) >= 0) {
+          aHi = aLo;
+          fHi = fLo;
+          dHi = dLo;
+        }
+        aLo = a;
+        fLo = fa;
+        dLo = da;
+      }
+    }
+    return false;
+  };
+
+  let aPrev = 0;
+  let fPrev = f0;
+  let dPrev = dg0;
+  let a = alpha0;
+  for (let i = 0; state.evaluations < o.maxLineSearchSteps && state.evaluations < budget; i++) {
+    const [fa, da] = phi(a);
+    if (!Number.isFinite(fa)) {
+      // Stepped out of the objective's domain: bracket with the finite side and shrink.
+      return zoom(aPrev, fPrev, dPrev, a, Number.MAX_VALUE, 0);
+    }
+    if (fa > f0 + o.c1 * a * dg0 || (i > 0 && fa >= fPrev)) return zoom(aPrev, fPrev, dPrev, a, fa, da);
+    if (Math.abs(da) <= -o.c2 * dg0) return accept(a, fa);
+    if (da >= 0) return zoom(a, fa, da, aPrev, fPrev, dPrev);
+    aPrev = a;
+    fPrev = fa;
+    dPrev = da;
+    a *= 4;
+  }
+  return false;
+}
+
+/**
+ * Minimises fg from x0 (not modified).
+ * @param fg returns f(x) and writes ∇f(x) into grad (same length as x).
+ */
+export function minimiseLbfgs(
+  fg: ObjectiveAndGradient,
+  x0: Float64Array,
+  options: LbfgsOptions = {},
+): LbfgsResult {
+  const o = checkOptions(options);
+  const n = x0.length;
+  if (n === 0) throw new Error('L-BFGS needs at least one variable');
+  const m = o.memory;
+  const x = Float64Array.from(x0);
+  const g = new Float64Array(n);
+  const p = new Float64Array(n);
+  const sHist = Array.from({ length: m }, () => new Float64Array(n));
+  const yHist = Array.from({ length: m }, () => new Float64Array(n));
+  const rho = new Float64Array(m);
+  const alphaHist = new Float64Array(m);
+  const state: LineSearchState = {
+    xNew: new Float64Array(n),
+    gNew: new Float64Array(n),
+    fNew: 0,
+    alpha: 0,
+    evaluations: 0,
+  };
+
+  o.signal?.throwIfAborted();
+  let f = fg(x, g);
+  let evaluations = 1;
+  if (!Number.isFinite(f))
+    throw new Error(`L-BFGS: the objective is not finite at the starting point (got ${f})`);
+  let gNorm = Math.sqrt(dot(g, g));
+  let stored = 0; // pairs in memory
+  let newest = -1; // ring-buffer index of the newest pair
+  let stall = 0;
+  let iterations = 0;
+  let reason: LbfgsReason = 'max-iterations';
+  let restarted = false;
+
+  const finish = (r: LbfgsReason): LbfgsResult => ({
+    x,
+    f,
+    grad: g,
+    gradNorm: gNorm,
+    iterations,
+    evaluations,
+    converged: r === 'gradient-tolerance' || r === 'absolute-decrease',
+    reason: r,
+  });
+
+  if (gNorm <= o.gradientTolerance) return finish('gradient-tolerance');
+
+  while (iterations < o.maxIterations) {
+    // Algorithm 7.4: two-loop recursion, p = −H g.
+    for (let i = 0; i < n; i++) p[i] = -g[i]!;
+    for (let j = 0; j < stored; j++) {
+      const k = (newest - j + m) % m;
+      const a = rho[k]! * dot(sHist[k]!, p);
+      alphaHist[k] = a;
+      const yk = yHist[k]!;
+      for (let i = 0; i < n; i++) p[i] = p[i]! - a * yk[i]!;
+    }
+    if (stored > 0) {
+      const yk = yHist[newest]!;
+      const gamma = 1 / (rho[newest]! * dot(yk, yk));
+      for (let i = 0; i < n; i++) p[i] = p[i]! * gamma;
+    }
+    for (let j = stored - 1; j >= 0; j--) {
+      const k = (newest - j + m) % m;
+      const b = rho[k]! * dot(yHist[k]!, p);
+      const a = alphaHist[k]! - b;
+      const sk = sHist[k]!;
+      for (let i = 0; i < n; i++) p[i] = p[i]! + a * sk[i]!;
+    }
+    let dg0 = dot(g, p);
+    if (!(dg0 < 0)) {
+      // Not a descent direction (round-off in H): fall back to steepest descent.
+      for (let i = 0; i < n; i++) p[i] = -g[i]!;
+      dg0 = -gNorm * gNorm;
+      stored = 0;
+    }
+    const alpha0 = stored === 0 ? Math.min(1, 1 / gNorm) : 1;
+    const budget = o.maxEvaluations - evaluations;
+    if (budget <= 0) {
+      reason = 'max-evaluations';
+      break;
+    }
+    const ok = strongWolfeLineSearch(fg, x, f, dg0, p, alpha0, o, budget, state);
+    evaluations += state.evaluations;
+    if (!ok) {
+      if (evaluations >= o.maxEvaluations) {
+        reason = 'max-evaluations';
+        break;
+      }
+      if (!restarted && stored > 0) {
+        // Forget the curvature pairs and retry along −g once.
+        restarted = true;
+        stored = 0;
+        continue;
+      }
+      reason = 'line-search-failed';
+      break;
+    }
+    restarted = false;
+    iterations++;
+    // New correction pair.
+    const slot = (newest + 1) % m;
+    const sk = sHist[slot]!;
+    const yk = yHist[slot]!;
+    for (let i = 0; i < n; i++) {
+      sk[i] = state.xNew[i]! - x[i]!;
+      yk[i] = state.gNew[i]! - g[i]!;
+    }
+    const sy = dot(sk, yk);
+    if (sy > 1e-12 * Math.sqrt(dot(sk, sk) * dot(yk, yk))) {
+      rho[slot] = 1 / sy;
+      newest = slot;
+      stored = Math.min(stored + 1, m);
+    }
+    const decrease = f - state.fNew;
+    x.set(state.xNew);
+    g.set(state.gNew);
+    f = state.fNew;
+    gNorm = Math.sqrt(dot(g, g));
+    o.onProgress?.({ iteration: iterations, objective: f, gradNorm: gNorm, evaluations });
+    if (gNorm <= o.gradientTolerance) return finish('gradient-tolerance');
+    stall = decrease < o.absoluteDecrease ? stall + 1 : 0;
+    if (stall >= o.stallIterations) return finish('absolute-decrease');
+    if (evaluations >= o.maxEvaluations) {
+      reason = 'max-evaluations';
+      break;
+    }
+  }
+  return finish(reason);
+}

@@ -1,0 +1,34 @@
+/**
+ * The one place that tells the user what happened: failures show the server's own message
+ * (ApiError.message), successes a short confirmation.
+ */
+import { Notify } from 'quasar';
+
+import { ApiError } from './api';
+
+/** Text to show for any thrown value. */
+export function messageOf(error: unknown): string {
+  if (error instanceof ApiError) {
+    const issues = error.fieldIssues;
+    if (issues.length > 0 && error.code === 'validation_failed') {
+      return `${error.message} ${issues.map((issue) => issue.message).join(' ')}`.trim();
+    }
+    return error.message;
+  }
+  if (error instanceof Error && error.message) return error.message;
+  return 'Something went wrong. Please try again.';
+}
+
+export function notifyError(error: unknown): void {
+  Notify.create({
+    type: 'negative',
+    message: messageOf(error),
+    position: 'top',
+    timeout: 6000,
+    actions: [{ icon: 'close', color: 'white', round: true, 'aria-label': 'Dismiss' }],
+  });
+}
+
+export function notifySuccess(message: string): void {
+  Notify.create({ type: 'positive', message, position: 'top', timeout: 2500 });
+}

@@ -1,0 +1,93 @@
+import type { RouteRecordRaw } from 'vue-router';
+
+const routes: RouteRecordRaw[] = [
+  {
+    path: '/',
+    component: () => import('@/layouts/AuthLayout.vue'),
+    children: [
+      {
+        path: 'signin',
+        name: 'sign-in',
+        component: () => import('@/pages/SignInPage.vue'),
+        meta: { guestOnly: true, title: 'Sign in' },
+      },
+      {
+        path: 'signup',
+        name: 'sign-up',
+        component: () => import('@/pages/SignUpPage.vue'),
+        meta: { guestOnly: true, title: 'Create an account' },
+      },
+      {
+        path: 'reset',
+        name: 'reset-request',
+        component: () => import('@/pages/ResetRequestPage.vue'),
+        meta: { title: 'Reset your password' },
+      },
+      {
+        path: 'reset/:token',
+        name: 'reset-confirm',
+        component: () => import('@/pages/ResetConfirmPage.vue'),
+        meta: { title: 'Choose a new password' },
+      },
+    ],
+  },
+  {
+    path: '/',
+    component: () => import('@/layouts/MainLayout.vue'),
+    meta: { requiresAuth: true },
+    children: [
+      { path: '', redirect: { name: 'projects' } },
+      {
+        path: 'projects',
+        name: 'projects',
+        component: () => import('@/pages/ProjectListPage.vue'),
+        meta: { title: 'Projects' },
+      },
+      {
+        path: 'projects/:id(\\d+)',
+        name: 'project',
+        component: () => import('@/pages/ProjectPage.vue'),
+        meta: { title: 'Project' },
+      },
+      {
+        path: 'account',
+        name: 'account',
+        component: () => import('@/pages/AccountPage.vue'),
+        meta: { title: 'Account' },
+      },
+      { path: 'admin', redirect: { name: 'admin-users' } },
+      {
+        path: 'admin/users',
+        name: 'admin-users',
+        component: () => import('@/pages/AdminUsersPage.vue'),
+        meta: { requiresAdmin: true, title: 'Users' },
+      },
+      {
+        path: 'admin/audit',
+        name: 'admin-audit',
+        component: () => import('@/pages/AdminAuditPage.vue'),
+        meta: { requiresAdmin: true, title: 'Audit log' },
+      },
+      {
+        path: 'admin/mail/:mailId(\\d+)?',
+        name: 'admin-mail',
+        component: () => import('@/pages/AdminMailPage.vue'),
+        meta: { requiresAdmin: true, title: 'Mail inbox' },
+      },
+    ],
+  },
+  {
+    path: '/:pathMatch(.*)*',
+    component: () => import('@/layouts/AuthLayout.vue'),
+    children: [
+      {
+        path: '',
+        name: 'not-found',
+        component: () => import('@/pages/NotFoundPage.vue'),
+        meta: { title: 'Not found' },
+      },
+    ],
+  },
+];
+
+export default routes;

@@ -1,0 +1,126 @@
+/**
+ * Circular convolution with a fixed kernel on a padded width × height grid, and its adjoint (correlation).
+ *
+ * apply:   out = k ⊛ x,  out(p) = Σ_q k(p − q) x(q)   (indices modulo the grid)
+ * adjoint: out = k ⋆ x,  out(q) = Σ_p k(p − q) x(p),  so ⟨k ⊛ x, y⟩ = ⟨x, k ⋆ y⟩.
+ * Both by the convolution theorem: one forward and one inverse real FFT each, with the kernel's spectrum K
+ * computed once; the adjoint multiplies by conj K. The kernel is given on the same grid with its centre at pixel
+ * (0, 0) and wrap-around (see kernelFromCentredStamp); the convolver does not normalise it.
+ */
+import { checkLength } from './check-size';
+import { createRealFft2d } from './real-fft-2d';
+import type { RealFft2d, RealFft2dOptions } from './types';
+
+export interface Convolver {
+  readonly width: number;
+  readonly height: number;
+  readonly implementation: string;
+  /** out = kernel ⊛ x (width·height row-major each). `x` and `out` may be the same array. */
+  apply(x: Float64Array, out: Float64Array): void;
+  /** out = kernel ⋆ x, the adjoint of apply. `x` and `out` may be the same array. */
+  adjoint(x: Float64Array, out: Float64Array): void;
+  dispose(): void;
+}
+
+export function createConvolver(
+  width: number,
+  height: number,
+  kernel: Float64Array,
+  options: RealFft2dOptions = {},
+): Convolver {
+  const fft = createRealFft2d(width, height, options);
+  checkLength(kernel, width * height, 'convolution kernel');
+  for (let i = 0; i < kernel.length; i++) {
+    if (!Number.isFinite(kernel[i]!)) {
+      fft.dispose();
+      throw new RangeError(`convolution kernel has a non-finite value at pixel ${i}`);
+    }
+  }
+  return new FftConvolver(fft, kernel);
+}
+
+class FftConvolver implements Convolver {
+  readonly width: number;
+  readonly height: number;
+  readonly implementation: string;
+  private readonly kernelRe: Float64Array;
+  private readonly kernelIm: Float64Array;
+  private readonly re: Float64Array;
+  private readonly im: Float64Array;
+
+  constructor(
+    private readonly fft: RealFft2d,
+    kernel: Float64Array,
+  ) {
+    this.width = fft.width;
+    this.height = fft.height;
+    this.implementation = fft.implementation;
+    const size = fft.spectrumWidth * fft.height;
+    this.kernelRe = new Float64Array(size);
+    this.kernelIm = new Float64Array(size);
+    this.re = new Float64Array(size);
+    this.im = new Float64Array(size);
+    fft.forward(kernel, this.kernelRe, this.kernelIm);
+  }
+
+  apply(x: Float64Array, out: Float64Array): void {
+    this.run(x, out, 1);
+  }
+
+  adjoint(x: Float64Array, out: Float64Array): void {
+    this.run(x, out, -1);
+  }
+
+  private run(x: Float64Array, out: Float64Array, conjugate: 1 | -1): void {
+    const { re, im, kernelRe, kernelIm } = this;
+    this.fft.forward(x, re, im);
+    for (let i = 0; i < re.length; i++) {
+      const xr = re[i]!,
+        xi = im[i]!,
+        kr = kernelRe[i]!,
+        ki = conjugate * kernelIm[i]!;
+      re[i] = xr * kr - xi * ki;
+      im[i] = xr * ki + xi * kr;
+    }
+    this.fft.inverse(re, im, out);
+  }
+
+  dispose(): void {
+    this.fft.dispose();
+  }
+}
+
+/**
+ * Places a PSF stamp (sw × sh, row-major) on a width × height grid with its centre pixel at (0, 0), wrapping
+ * negative offsets to the far edges: stamp pixel (i, j) goes to ((i − cx) mod width, (j − cy) mod height) with
+ * cx = floor(sw / 2), cy = floor(sh / 2) (the middle pixel for odd sizes, the one right of/below the middle for
+ * even sizes). The stamp is copied as given, not normalised.
+ */
+export function kernelFromCentredStamp(
+  stamp: Float64Array,
+  stampWidth: number,
+  stampHeight: number,
+  width: number,
+  height: number,
+): Float64Array {
+  if (!Number.isInteger(stampWidth) || !Number.isInteger(stampHeight) || stampWidth < 1 || stampHeight < 1) {
+    throw new RangeError(`PSF stamp size must be positive integers, got ${stampWidth}×${stampHeight}`);
+  }
+  checkLength(stamp, stampWidth * stampHeight, 'PSF stamp');
+  if (stampWidth > width || stampHeight > height) {
+    throw new RangeError(
+      `PSF stamp ${stampWidth}×${stampHeight} is larger than the FFT grid ${width}×${height}`,
+    );
+  }
+  const kernel = new Float64Array(width * height);
+  const cx = Math.floor(stampWidth / 2);
+  const cy = Math.floor(stampHeight / 2);
+  for (let j = 0; j < stampHeight; j++) {
+    const y = (j - cy + height) % height;
+    for (let i = 0; i < stampWidth; i++) {
+      const x = (i - cx + width) % width;
+      kernel[y * width + x] = stamp[j * stampWidth + i]!;
+    }
+  }
+  return kernel;
+}

@@ -1,0 +1,67 @@
+/**
+ * Orthonormal 2-D discrete Hartley transform on a width × height grid:
+ *   H(k) = (1/√N) Σ_x f(x) cas(2π (kx x / width + ky y / height)),  cas θ = cos θ + sin θ,  N = width·height,
+ * computed as H(k) = (Re F(k) − Im F(k)) / √N from one real forward FFT (F with the exp(−2πi…) sign), the
+ * missing half of F from Hermitian symmetry (R. N. Bracewell, "The Hartley Transform", Oxford 1986, ch. 2).
+ * The matrix is real, symmetric and orthogonal, so the transform is its own inverse and its own adjoint:
+ * the gradient pass of φ = H(A ⊙ ξ) is the same call. Output layout = input layout (row-major, x fastest).
+ */
+import { checkLength } from './check-size';
+import { createRealFft2d } from './real-fft-2d';
+import type { RealFft2d, RealFft2dOptions } from './types';
+
+export interface Hartley2d {
+  readonly width: number;
+  readonly height: number;
+  readonly implementation: string;
+  /** output = H(input); both width·height row-major; they must be different arrays. */
+  transform(input: Float64Array, output: Float64Array): void;
+  dispose(): void;
+}
+
+export function createHartley2d(width: number, height: number, options: RealFft2dOptions = {}): Hartley2d {
+  const fft = createRealFft2d(width, height, options);
+  return new Hartley2dFromFft(fft);
+}
+
+class Hartley2dFromFft implements Hartley2d {
+  readonly width: number;
+  readonly height: number;
+  readonly implementation: string;
+  private readonly re: Float64Array;
+  private readonly im: Float64Array;
+
+  constructor(private readonly fft: RealFft2d) {
+    this.width = fft.width;
+    this.height = fft.height;
+    this.implementation = fft.implementation;
+    this.re = new Float64Array(fft.spectrumWidth * fft.height);
+    this.im = new Float64Array(fft.spectrumWidth * fft.height);
+  }
+
+  transform(input: Float64Array, output: Float64Array): void {
+    const { width, height, re, im } = this;
+    const spectrumWidth = this.fft.spectrumWidth;
+    checkLength(input, width * height, 'Hartley input');
+    checkLength(output, width * height, 'Hartley output');
+    if (input === output) throw new RangeError('Hartley input and output must be different arrays');
+    this.fft.forward(input, re, im);
+    const scale = 1 / Math.sqrt(width * height);
+    for (let ky = 0; ky < height; ky++) {
+      const row = ky * spectrumWidth;
+      const out = ky * width;
+      const mirror = ((height - ky) % height) * width;
+      for (let kx = 0; kx < spectrumWidth; kx++) {
+        const r = re[row + kx]!,
+          i = im[row + kx]!;
+        output[out + kx] = (r - i) * scale;
+        // F(w−kx, h−ky) = conj F(kx, ky), so H there is (Re + Im)/√N.
+        if (kx > 0 && width - kx >= spectrumWidth) output[mirror + width - kx] = (r + i) * scale;
+      }
+    }
+  }
+
+  dispose(): void {
+    this.fft.dispose();
+  }
+}

@@ -1,0 +1,179 @@
+/**
+ * 2-D real FFT in float64, pure TypeScript (see types.ts for the half-spectrum layout and normalisation).
+ *
+ * Method: the row-column algorithm. Rows: two real rows a, b are packed as z = a + i b into one complex
+ * transform Z of length width, then A[k] = (Z[k] + conj Z[−k]) / 2 and B[k] = (Z[k] − conj Z[−k]) / (2i)
+ * (the classic two-for-one trick for real sequences, e.g. Press et al., "Numerical Recipes", 3rd ed., §12.3).
+ * Columns: complex transforms of length height over blocks of adjacent half-spectrum columns, so every stage
+ * streams through contiguous memory. The inverse runs the same steps backwards; it rebuilds the full row
+ * spectrum from Hermitian symmetry and unpacks two real rows from one complex inverse.
+ */
+import { checkFftSize, checkLength } from './check-size';
+import { complexForward, createComplexPlan, type ComplexPlan } from './complex-plan';
+import type { RealFft2d } from './types';
+
+/** Columns per block in the column pass: 32 columns × height complex values stay in the L2 cache. */
+const COLUMN_BLOCK = 32;
+
+export class RealFft2dFloat64 implements RealFft2d {
+  readonly spectrumWidth: number;
+  readonly implementation = 'typescript-float64';
+  private readonly rowPlan: ComplexPlan;
+  private readonly columnPlan: ComplexPlan;
+  private readonly zRe: Float64Array;
+  private readonly zIm: Float64Array;
+  private readonly rowWorkRe: Float64Array;
+  private readonly rowWorkIm: Float64Array;
+  private readonly columnWorkRe: Float64Array;
+  private readonly columnWorkIm: Float64Array;
+  private readonly spectrumRe: Float64Array;
+  private readonly spectrumIm: Float64Array;
+
+  constructor(
+    readonly width: number,
+    readonly height: number,
+  ) {
+    checkFftSize(width, height);
+    this.spectrumWidth = Math.floor(width / 2) + 1;
+    this.rowPlan = createComplexPlan(width);
+    this.columnPlan = createComplexPlan(height);
+    this.zRe = new Float64Array(width);
+    this.zIm = new Float64Array(width);
+    this.rowWorkRe = new Float64Array(width);
+    this.rowWorkIm = new Float64Array(width);
+    this.columnWorkRe = new Float64Array(height * COLUMN_BLOCK);
+    this.columnWorkIm = new Float64Array(height * COLUMN_BLOCK);
+    this.spectrumRe = new Float64Array(this.spectrumWidth * height);
+    this.spectrumIm = new Float64Array(this.spectrumWidth * height);
+  }
+
+  forward(input: Float64Array, outRe: Float64Array, outIm: Float64Array): void {
+    const { width, height, spectrumWidth } = this;
+    checkLength(input, width * height, 'FFT input');
+    checkLength(outRe, spectrumWidth * height, 'FFT output (real part)');
+    checkLength(outIm, spectrumWidth * height, 'FFT output (imaginary part)');
+    this.forwardRows(input, outRe, outIm, 0, height);
+    this.columns(outRe, outIm, outRe, outIm, 0, spectrumWidth, false);
+  }
+
+  inverse(inRe: Float64Array, inIm: Float64Array, output: Float64Array): void {
+    const { width, height, spectrumWidth } = this;
+    checkLength(inRe, spectrumWidth * height, 'inverse FFT input (real part)');
+    checkLength(inIm, spectrumWidth * height, 'inverse FFT input (imaginary part)');
+    checkLength(output, width * height, 'inverse FFT output');
+    this.columns(inRe, inIm, this.spectrumRe, this.spectrumIm, 0, spectrumWidth, true);
+    this.inverseRows(this.spectrumRe, this.spectrumIm, output, 0, height);
+  }
+
+  dispose(): void {}
+
+  /** Row transforms of rows [y0, y1) (y0 even) of `input` into the half spectrum rows of out. */
+  forwardRows(input: Float64Array, outRe: Float64Array, outIm: Float64Array, y0: number, y1: number): void {
+    const { width, spectrumWidth, zRe, zIm } = this;
+    for (let y = y0; y < y1; y += 2) {
+      const paired = y + 1 < y1;
+      const a = y * width;
+      for (let x = 0; x < width; x++) zRe[x] = input[a + x]!;
+      if (paired) for (let x = 0; x < width; x++) zIm[x] = input[a + width + x]!;
+      else zIm.fill(0);
+      complexForward(this.rowPlan, 1, zRe, zIm, 0, 1, zRe, zIm, 0, 1, this.rowWorkRe, this.rowWorkIm);
+      const ra = y * spectrumWidth;
+      const rb = ra + spectrumWidth;
+      for (let k = 0; k < spectrumWidth; k++) {
+        const kk = k === 0 ? 0 : width - k;
+        const pr = zRe[k]!,
+          pi = zIm[k]!,
+          cr = zRe[kk]!,
+          ci = zIm[kk]!;
+        outRe[ra + k] = 0.5 * (pr + cr);
+        outIm[ra + k] = 0.5 * (pi - ci);
+        if (paired) {
+          outRe[rb + k] = 0.5 * (pi + ci);
+          outIm[rb + k] = -0.5 * (pr - cr);
+        }
+      }
+    }
+  }
+
+  /** Inverse row transforms of half-spectrum rows [y0, y1) (y0 even) into output rows, scaled by 1/(w·h). */
+  inverseRows(
+    specRe: Float64Array,
+    specIm: Float64Array,
+    output: Float64Array,
+    y0: number,
+    y1: number,
+  ): void {
+    const { width, height, spectrumWidth, zRe, zIm } = this;
+    const scale = 1 / (width * height);
+    for (let y = y0; y < y1; y += 2) {
+      const paired = y + 1 < y1;
+      const ra = y * spectrumWidth;
+      const rb = ra + spectrumWidth;
+      // Z = A + iB on the stored half, Z[k] = conj A[w−k] + i conj B[w−k] on the other.
+      for (let k = 0; k < spectrumWidth; k++) {
+        const ar = specRe[ra + k]!,
+          ai = specIm[ra + k]!;
+        const br = paired ? specRe[rb + k]! : 0,
+          bi = paired ? specIm[rb + k]! : 0;
+        zRe[k] = ar - bi;
+        zIm[k] = ai + br;
+        if (k > 0 && width - k >= spectrumWidth) {
+          zRe[width - k] = ar + bi;
+          zIm[width - k] = br - ai;
+        }
+      }
+      // Inverse = forward with real and imaginary parts swapped.
+      complexForward(this.rowPlan, 1, zIm, zRe, 0, 1, zIm, zRe, 0, 1, this.rowWorkIm, this.rowWorkRe);
+      const a = y * width;
+      for (let x = 0; x < width; x++) output[a + x] = zRe[x]! * scale;
+      if (paired) for (let x = 0; x < width; x++) output[a + width + x] = zIm[x]! * scale;
+    }
+  }
+
+  /** Column transforms of half-spectrum columns [c0, c1), forward or (unnormalised) inverse. */
+  columns(
+    inRe: Float64Array,
+    inIm: Float64Array,
+    outRe: Float64Array,
+    outIm: Float64Array,
+    c0: number,
+    c1: number,
+    inverse: boolean,
+  ): void {
+    const { spectrumWidth } = this;
+    for (let c = c0; c < c1; c += COLUMN_BLOCK) {
+      const batch = Math.min(COLUMN_BLOCK, c1 - c);
+      if (inverse) {
+        complexForward(
+          this.columnPlan,
+          batch,
+          inIm,
+          inRe,
+          c,
+          spectrumWidth,
+          outIm,
+          outRe,
+          c,
+          spectrumWidth,
+          this.columnWorkIm,
+          this.columnWorkRe,
+        );
+      } else {
+        complexForward(
+          this.columnPlan,
+          batch,
+          inRe,
+          inIm,
+          c,
+          spectrumWidth,
+          outRe,
+          outIm,
+          c,
+          spectrumWidth,
+          this.columnWorkRe,
+          this.columnWorkIm,
+        );
+      }
+    }
+  }
+}

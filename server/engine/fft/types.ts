@@ -1,0 +1,42 @@
+/**
+ * Shared types of the FFT layer.
+ *
+ * Half-spectrum layout (every RealFft2d): row-major, `spectrumWidth = floor(width / 2) + 1` columns by `height`
+ * rows; element (kx, ky) with 0 ≤ kx ≤ floor(width / 2), 0 ≤ ky < height sits at index ky·spectrumWidth + kx.
+ * It holds F(kx, ky) = Σ_{x,y} f(x, y) exp(−2πi (kx x / width + ky y / height)) (forward, unnormalised, the sign
+ * convention of NumPy/SciPy). The other half follows from Hermitian symmetry F(−k) = conj F(k).
+ * `inverse` is normalised (divides by width·height), so inverse(forward(f)) = f.
+ */
+export interface RealFft2d {
+  readonly width: number;
+  readonly height: number;
+  /** floor(width / 2) + 1: the number of columns of the half spectrum. */
+  readonly spectrumWidth: number;
+  /** Which code runs the transform, for the bench and run records. */
+  readonly implementation: string;
+  /** `input` width·height row-major; `outRe`, `outIm` spectrumWidth·height (layout above). `input` is kept. */
+  forward(input: Float64Array, outRe: Float64Array, outIm: Float64Array): void;
+  /**
+   * Normalised inverse of a Hermitian half spectrum (the half spectrum of a real image); `inRe`, `inIm` are kept.
+   * Imaginary parts that Hermitian symmetry forces to zero (kx = 0 and, for even width, kx = width/2, at ky = 0
+   * and, for even height, ky = height/2) are not checked.
+   */
+  inverse(inRe: Float64Array, inIm: Float64Array, output: Float64Array): void;
+  /** Releases worker threads and WASM memory; the object must not be used afterwards. */
+  dispose(): void;
+}
+
+export type FftPrecision = 'float64' | 'float32';
+
+export interface RealFft2dOptions {
+  /**
+   * Arithmetic of the transform. Inputs and outputs are float64 either way; 'float32' converts internally.
+   * @default 'float64'
+   */
+  precision?: FftPrecision;
+  /**
+   * Threads to use (1 or 2): 2 splits rows and columns between the calling thread and one persistent worker.
+   * @default 1
+   */
+  threads?: 1 | 2;
+}

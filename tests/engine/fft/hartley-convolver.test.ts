@@ -1,0 +1,190 @@
+// @vitest-environment node
+import { describe, expect, it } from 'vitest';
+import { createConvolver, createHartley2d, kernelFromCentredStamp } from '../../../server/engine/fft';
+import { dot, maxAbsDifference, randomArray } from './reference';
+
+/** Direct orthonormal DHT from its definition, H(k) = N^−½ Σ f(x) cas(2π(kx x/W + ky y/H)) (Bracewell 1986). */
+function naiveHartley(input: Float64Array, width: number, height: number): Float64Array {
+  const out = new Float64Array(width * height);
+  const scale = 1 / Math.sqrt(width * height);
+  for (let ky = 0; ky < height; ky++) {
+    for (let kx = 0; kx < width; kx++) {
+      let s = 0;
+      for (let y = 0; y < height; y++) {
+        for (let x = 0; x < width; x++) {
+          const angle = 2 * Math.PI * (((kx * x) % width) / width + ((ky * y) % height) / height);
+          s += input[y * width + x]! * (Math.cos(angle) + Math.sin(angle));
+        }
+      }
+      out[ky * width + kx] = s * scale;
+    }
+  }
+  return out;
+}
+
+/** Direct circular convolution Σ_q k(p − q) x(q) and correlation Σ_p k(p − q) x(p). */
+function naiveConvolve(
+  kernel: Float64Array,
+  x: Float64Array,
+  width: number,
+  height: number,
+  adjoint: boolean,
+) {
+  const out = new Float64Array(width * height);
+  for (let py = 0; py < height; py++) {
+    for (let px = 0; px < width; px++) {
+      let s = 0;
+      for (let qy = 0; qy < height; qy++) {
+        for (let qx = 0; qx < width; qx++) {
+          const dx = adjoint ? (qx - px + width) % width : (px - qx + width) % width;
+          const dy = adjoint ? (qy - py + height) % height : (py - qy + height) % height;
+          s += kernel[dy * width + dx]! * x[qy * width + qx]!;
+        }
+      }
+      out[py * width + px] = s;
+    }
+  }
+  return out;
+}
+
+const SIZES: [number, number][] = [
+  [1, 1],
+  [1, 6],
+  [5, 1],
+  [2, 3],
+  [7, 5],
+  [8, 8],
+  [12, 9],
+  [16, 20],
+  [15, 14],
+  [32, 11],
+];
+
+describe('createHartley2d (float64)', () => {
+  it.each(SIZES)('%i×%i matches the cas definition', (width, height) => {
+    const input = randomArray(width * height, 31 * width + height);
+    const h = createHartley2d(width, height);
+    const out = new Float64Array(width * height);
+    h.transform(input, out);
+    const want = naiveHartley(input, width, height);
+    const { value, index } = maxAbsDifference(out, want);
+    const tol = 1e-13 * Math.sqrt(width * height) + 1e-14;
+    expect(
+      value,
+      `${width}×${height} at ${index}: expected ${want[index]}, got ${out[index]}, tol ${tol}`,
+    ).toBeLessThan(tol);
+  });
+
+  it.each(SIZES)(
+    '%i×%i is its own inverse and orthonormal (‖Hx‖ = ‖x‖, ⟨Hx, y⟩ = ⟨x, Hy⟩)',
+    (width, height) => {
+      const n = width * height;
+      const x = randomArray(n, 5 + n);
+      const y = randomArray(n, 6 + n, 0.3);
+      const h = createHartley2d(width, height);
+      const hx = new Float64Array(n);
+      const hhx = new Float64Array(n);
+      const hy = new Float64Array(n);
+      h.transform(x, hx);
+      h.transform(hx, hhx);
+      h.transform(y, hy);
+      const { value } = maxAbsDifference(hhx, x);
+      expect(value, 'H(H(x)) − x').toBeLessThan(1e-14 * 8 * Math.log2(2 + n));
+      expect(Math.abs(dot(hx, hx) - dot(x, x)) / dot(x, x), 'norm').toBeLessThan(1e-13);
+      expect(Math.abs(dot(hx, y) - dot(x, hy)), 'symmetry').toBeLessThan(1e-12 * Math.sqrt(n));
+    },
+  );
+
+  it('refuses the same array as input and output', () => {
+    const a = new Float64Array(16);
+    expect(() => createHartley2d(4, 4).transform(a, a)).toThrow(
+      'Hartley input and output must be different arrays',
+    );
+  });
+});
+
+describe('createConvolver (float64)', () => {
+  it.each(SIZES)('%i×%i apply and adjoint match the direct circular sums', (width, height) => {
+    const n = width * height;
+    const kernel = randomArray(n, 77 + n);
+    const x = randomArray(n, 78 + n);
+    const conv = createConvolver(width, height, kernel);
+    const out = new Float64Array(n);
+    for (const adjoint of [false, true]) {
+      if (adjoint) conv.adjoint(x, out);
+      else conv.apply(x, out);
+      const want = naiveConvolve(kernel, x, width, height, adjoint);
+      const { value, index } = maxAbsDifference(out, want);
+      const tol = 1e-13 * n + 1e-14;
+      expect(
+        value,
+        `${adjoint ? 'adjoint' : 'apply'} at ${index}: expected ${want[index]}, got ${out[index]}`,
+      ).toBeLessThan(tol);
+    }
+  });
+
+  it('⟨Ax, y⟩ = ⟨x, Aᵀy⟩ for an asymmetric kernel (definition of the adjoint)', () => {
+    const width = 48,
+      height = 30,
+      n = width * height;
+    const kernel = randomArray(n, 1);
+    const x = randomArray(n, 2);
+    const y = randomArray(n, 3);
+    const conv = createConvolver(width, height, kernel);
+    const ax = new Float64Array(n);
+    const aty = new Float64Array(n);
+    conv.apply(x, ax);
+    conv.adjoint(y, aty);
+    const left = dot(ax, y),
+      right = dot(x, aty);
+    expect(Math.abs(left - right) / Math.abs(left), `${left} vs ${right}`).toBeLessThan(1e-12);
+  });
+
+  it('works in place (x and out the same array)', () => {
+    const width = 10,
+      height = 6,
+      n = width * height;
+    const kernel = randomArray(n, 4);
+    const x = randomArray(n, 5);
+    const conv = createConvolver(width, height, kernel);
+    const separate = new Float64Array(n);
+    conv.apply(x, separate);
+    conv.apply(x, x);
+    expect(maxAbsDifference(x, separate).value).toBeLessThan(1e-15);
+  });
+
+  it('a centred stamp shifts nothing: convolving a delta reproduces the stamp around the delta', () => {
+    const width = 20,
+      height = 16,
+      n = width * height;
+    const stamp = new Float64Array([0, 1, 0, 2, 5, 3, 0, 4, 0]); // 3×3, centre value 5 at (1, 1)
+    const kernel = kernelFromCentredStamp(stamp, 3, 3, width, height);
+    expect(kernel[0]).toBe(5);
+    expect(kernel[width - 1]).toBe(2); // left neighbour wraps to x = width − 1
+    expect(kernel[(height - 1) * width]).toBe(1); // neighbour above wraps to y = height − 1
+    const delta = new Float64Array(n);
+    delta[7 * width + 9] = 1;
+    const out = new Float64Array(n);
+    createConvolver(width, height, kernel).apply(delta, out);
+    for (let j = 0; j < 3; j++) {
+      for (let i = 0; i < 3; i++) {
+        expect(out[(6 + j) * width + 8 + i]).toBeCloseTo(stamp[j * 3 + i]!, 12);
+      }
+    }
+  });
+
+  it('rejects bad kernels and stamps with exact messages', () => {
+    expect(() => createConvolver(4, 4, new Float64Array(15))).toThrow(
+      'convolution kernel must have 16 elements, got 15',
+    );
+    const bad = new Float64Array(16);
+    bad[3] = Number.NaN;
+    expect(() => createConvolver(4, 4, bad)).toThrow('convolution kernel has a non-finite value at pixel 3');
+    expect(() => kernelFromCentredStamp(new Float64Array(25), 5, 5, 4, 8)).toThrow(
+      'PSF stamp 5×5 is larger than the FFT grid 4×8',
+    );
+    expect(() => kernelFromCentredStamp(new Float64Array(4), 2, 3, 8, 8)).toThrow(
+      'PSF stamp must have 6 elements, got 4',
+    );
+  });
+});

@@ -1,0 +1,76 @@
+/**
+ * Test helpers: a naive O(N²) 2-D DFT straight from the definition
+ * F(kx, ky) = Σ_{x,y} f(x, y) exp(−2πi (kx x / W + ky y / H)) (the sign convention of NumPy/SciPy), and a seeded
+ * random generator, so the FFT tests compare against something outside the code under test.
+ */
+export function naiveDft2d(
+  input: Float64Array,
+  width: number,
+  height: number,
+): { re: Float64Array; im: Float64Array } {
+  const re = new Float64Array(width * height);
+  const im = new Float64Array(width * height);
+  for (let ky = 0; ky < height; ky++) {
+    for (let kx = 0; kx < width; kx++) {
+      let sr = 0;
+      let si = 0;
+      for (let y = 0; y < height; y++) {
+        for (let x = 0; x < width; x++) {
+          // Reduce the phase modulo 1 exactly in integers before the trigonometry.
+          const turns = ((kx * x) % width) / width + ((ky * y) % height) / height;
+          const angle = -2 * Math.PI * turns;
+          const v = input[y * width + x]!;
+          sr += v * Math.cos(angle);
+          si += v * Math.sin(angle);
+        }
+      }
+      re[ky * width + kx] = sr;
+      im[ky * width + kx] = si;
+    }
+  }
+  return { re, im };
+}
+
+/** Mulberry32: a small seeded generator; uniform in [0, 1). */
+export function seededRandom(seed: number): () => number {
+  let a = seed >>> 0;
+  return () => {
+    a = (a + 0x6d2b79f5) >>> 0;
+    let t = a;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+export function randomArray(n: number, seed: number, offset = 0): Float64Array {
+  const next = seededRandom(seed);
+  const out = new Float64Array(n);
+  for (let i = 0; i < n; i++) out[i] = next() * 2 - 1 + offset;
+  return out;
+}
+
+export function maxAbs(a: Float64Array): number {
+  let m = 0;
+  for (const v of a) m = Math.max(m, Math.abs(v));
+  return m;
+}
+
+export function maxAbsDifference(a: Float64Array, b: Float64Array): { value: number; index: number } {
+  let value = 0;
+  let index = -1;
+  for (let i = 0; i < a.length; i++) {
+    const d = Math.abs(a[i]! - b[i]!);
+    if (d > value || Number.isNaN(d)) {
+      value = d;
+      index = i;
+    }
+  }
+  return { value, index };
+}
+
+export function dot(a: Float64Array, b: Float64Array): number {
+  let s = 0;
+  for (let i = 0; i < a.length; i++) s += a[i]! * b[i]!;
+  return s;
+}

@@ -88,7 +88,9 @@ function sinProjection(xi: number, eta: number): Projection {
         if (r2 > 1) return [NaN, NaN];
         return [argDeg(-Y, X), Math.acos(Math.sqrt(r2)) * R2D];
       }
-      // Paper II eq. 60–63: a sin²θ + 2b sinθ + c = 0, take the root closest to θ = 90°.
+      // Paper II eq. 60–63: a sin²θ + 2b sinθ + c = 0, root closest to θ = 90°. Written for w = 1 − sinθ,
+      // a w² − 2(a + b) w + (X² + Y²) = 0, whose small root in the stable form below keeps full precision
+      // near the reference point (where sinθ → 1 and asin would lose half the digits).
       const a = xi * xi + eta * eta + 1;
       const dx = X - xi;
       const dy = Y - eta;
@@ -96,13 +98,14 @@ function sinProjection(xi: number, eta: number): Projection {
       const c = dx * dx + dy * dy - 1;
       const discriminant = b * b - a * c;
       if (discriminant < 0) return [NaN, NaN];
-      const root = Math.sqrt(discriminant);
-      const candidates = [(-b + root) / a, (-b - root) / a].filter((s) => s >= -1 - 1e-13 && s <= 1 + 1e-13);
-      if (candidates.length === 0) return [NaN, NaN];
-      const sinTheta = Math.min(1, Math.max(-1, Math.max(...candidates)));
-      const theta = Math.asin(sinTheta) * R2D;
-      const oneMinus = 1 - sinTheta;
-      return [argDeg(-(Y - eta * oneMinus), X - xi * oneMinus), theta];
+      const r2 = X * X + Y * Y;
+      const half = a + b;
+      let w: number;
+      if (half > 0) w = r2 / (half + Math.sqrt(discriminant));
+      else w = 1 - Math.min(1, (-b + Math.sqrt(discriminant)) / a);
+      if (!(w >= 0 && w <= 2)) return [NaN, NaN];
+      const theta = Math.atan2(1 - w, Math.sqrt(w * (2 - w))) * R2D;
+      return [argDeg(-(Y - eta * w), X - xi * w), theta];
     },
     fromNative(phi, theta) {
       const p = phi * D2R;

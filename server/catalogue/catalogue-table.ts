@@ -45,12 +45,24 @@ export interface CatalogueProvenance {
   createdAt: string;
 }
 
+/** A single value that describes the whole table (e.g. the match radius): a VOTable PARAM, a FITS card. */
+export interface TableParameter {
+  /** Lower-case name, at most 8 characters so it can also be a FITS keyword (upper-cased there). */
+  name: string;
+  value: number | string;
+  unit: string;
+  ucd: string;
+  description: string;
+}
+
 export interface CatalogueTable {
-  /** What the table holds, one line (used as the VOTable TABLE name / FITS EXTNAME context). */
+  /** What the table holds, one line (VOTable TABLE description, FITS comment). */
   title: string;
   columns: TableColumn[];
   rows: CellValue[][];
   provenance: CatalogueProvenance;
+  /** Table-wide values beyond the provenance. */
+  parameters?: TableParameter[];
 }
 
 /** The caution that travels with every export (DEVELOPERS.md: show the usual cautions). */
@@ -238,6 +250,16 @@ export function checkTable(table: CatalogueTable): void {
     }
     if (seen.has(column.name)) throw new Error(`Column name "${column.name}" appears twice.`);
     seen.add(column.name);
+  }
+  for (const parameter of table.parameters ?? []) {
+    if (!/^[a-z][a-z0-9_]{0,7}$/.test(parameter.name)) {
+      throw new Error(
+        `Parameter name "${parameter.name}" must be 1-8 characters a-z, 0-9, _ starting with a letter.`,
+      );
+    }
+    if (typeof parameter.value === 'number' && !Number.isFinite(parameter.value)) {
+      throw new Error(`Parameter ${parameter.name} must be a finite number.`);
+    }
   }
   table.rows.forEach((row, rowIndex) => {
     if (row.length !== table.columns.length) {

@@ -9,7 +9,7 @@
  */
 import { stringify } from 'csv-stringify/sync';
 import { CATALOGUE_CAUTION, checkTable } from './catalogue-table';
-import type { CatalogueProvenance, CatalogueTable, CellValue } from './catalogue-table';
+import type { CatalogueProvenance, CatalogueTable, CellValue, TableParameter } from './catalogue-table';
 
 function csvCell(value: CellValue): string {
   if (value === null) return '';
@@ -33,6 +33,7 @@ export interface CsvSidecar {
   rows: number;
   columns: { name: string; datatype: string; unit: string; ucd: string; description: string }[];
   provenance: CatalogueProvenance;
+  parameters: TableParameter[];
 }
 
 /** The JSON sidecar describing a CSV export: units and UCDs per column, provenance, the caution. */
@@ -51,5 +52,6 @@ export function csvSidecar(table: CatalogueTable, csvFileName: string): CsvSidec
       description,
     })),
     provenance: table.provenance,
+    parameters: table.parameters ?? [],
   };
 }

@@ -136,6 +136,16 @@ export function tableToVotable(table: CatalogueTable): string {
 
   const tableElement = resource.ele('TABLE', { name: 'catalogue', nrows: String(table.rows.length) });
   tableElement.ele('DESCRIPTION').txt(table.title);
+  for (const parameter of table.parameters ?? []) {
+    addParam(
+      tableElement,
+      parameter.name,
+      parameter.value,
+      parameter.unit,
+      parameter.ucd,
+      parameter.description,
+    );
+  }
   for (const column of table.columns) {
     const field = tableElement.ele('FIELD', fieldAttributes(column));
     field.ele('DESCRIPTION').txt(column.description);

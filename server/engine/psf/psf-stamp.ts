@@ -10,7 +10,7 @@
  * Gaussian PSF: the density factorises as N(v; 0, Cvv) · N(u; m v, s²) with m = Cuv/Cvv and s² = det C / Cvv, where
  * v is the axis of larger variance. The integral over u within a pixel is exact (a difference of normal CDFs); the
  * integral over v is composite 5-point Gauss–Legendre (Abramowitz & Stegun 25.4.29), with sub-intervals no wider than
- * min(σv, s)/1.5. The derivative along u is the same quadrature of the normal density at the pixel edges; the
+ * min(σv, s). The derivative along u is the same quadrature of the normal density at the pixel edges; the
  * derivative along v is exact: the integrand evaluated at the two pixel edges (Leibniz rule).
  *
  * Image PSF: its values are already pixel-integrated, so the stamp is the image shifted by (dx, dy) with the Keys
@@ -97,7 +97,7 @@ function gaussianStamp(psf: GaussianPsf, dx: number, dy: number, stamp: PsfStamp
   values.fill(0);
   dU.fill(0);
   // The integrand varies on the scales σv (the outer density) and s/|m|·… ≥ s (the inner edges moving with v).
-  const nSub = Math.min(64, Math.max(1, Math.ceil(1.5 / Math.min(sv, s))));
+  const nSub = Math.min(64, Math.max(1, Math.ceil(1 / Math.min(sv, s))));
   const z = new Float64Array(size + 1);
   const t = new Float64Array(size + 1);
   const edgeProfile = new Float64Array((size + 1) * size);

@@ -85,7 +85,8 @@ export interface ApiClientOptions {
 function withQuery(path: string, query: Query | undefined): string {
   if (!query) return path;
   const search = new URLSearchParams();
-  for (const [key, value] of Object.entries(query)) if (value !== undefined && value !== '') search.set(key, String(value));
+  for (const [key, value] of Object.entries(query))
+    if (value !== undefined && value !== '') search.set(key, String(value));
   const text = search.toString();
   return text ? `${path}?${text}` : path;
 }
@@ -107,7 +108,11 @@ export function createApiClient(options: ApiClientOptions = {}) {
         body: body === undefined ? undefined : JSON.stringify(body),
       });
     } catch {
-      throw new ApiError(0, 'network', 'The Skysieve server cannot be reached. Check your connection and try again.');
+      throw new ApiError(
+        0,
+        'network',
+        'The Skysieve server cannot be reached. Check your connection and try again.',
+      );
     }
   }
 
@@ -121,7 +126,8 @@ export function createApiClient(options: ApiClientOptions = {}) {
     return new ApiError(
       response.status,
       'unexpected_response',
-      `The server answered ${response.status} ${response.statusText || ''}`.trim() + ' without an explanation.',
+      `The server answered ${response.status} ${response.statusText || ''}`.trim() +
+        ' without an explanation.',
     );
   }
 
@@ -142,7 +148,12 @@ export function createApiClient(options: ApiClientOptions = {}) {
     return parse(response, opts.schema, method, path);
   }
 
-  async function parse<T>(response: Response, schema: z.ZodType<T> | undefined, method: Method, path: string) {
+  async function parse<T>(
+    response: Response,
+    schema: z.ZodType<T> | undefined,
+    method: Method,
+    path: string,
+  ) {
     if (!schema) return undefined as T;
     const json: unknown = await response.json().catch(() => undefined);
     const parsed = schema.safeParse(json);
@@ -164,7 +175,11 @@ export function createApiClient(options: ApiClientOptions = {}) {
         headers: { accept: 'application/json' },
         credentials: 'same-origin',
       }).catch(() => {
-        throw new ApiError(0, 'network', 'The Skysieve server cannot be reached. Check your connection and try again.');
+        throw new ApiError(
+          0,
+          'network',
+          'The Skysieve server cannot be reached. Check your connection and try again.',
+        );
       });
       if (!response.ok) throw await errorFrom(response);
       return (await parse(response, csrfTokenResponseSchema, 'GET', '/api/auth/csrf')).token;
@@ -192,28 +207,37 @@ export function createApiClient(options: ApiClientOptions = {}) {
     auth: {
       me: () => request('GET', '/api/auth/me', { schema: userResponseSchema }),
       login: (body: LoginRequest) => request('POST', '/api/auth/login', { body, schema: userResponseSchema }),
-      signup: (body: SignupRequest) => request('POST', '/api/auth/signup', { body, schema: userResponseSchema }),
+      signup: (body: SignupRequest) =>
+        request('POST', '/api/auth/signup', { body, schema: userResponseSchema }),
       logout: () => request<void>('POST', '/api/auth/logout'),
-      updateMe: (body: UpdateMeRequest) => request('PATCH', '/api/auth/me', { body, schema: userResponseSchema }),
+      updateMe: (body: UpdateMeRequest) =>
+        request('PATCH', '/api/auth/me', { body, schema: userResponseSchema }),
       changePassword: (body: PasswordChangeRequest) => request<void>('POST', '/api/auth/password', { body }),
       requestReset: (email: string) =>
         request<void>('POST', '/api/auth/password-reset/request', { body: { email } }),
       confirmReset: (body: PasswordResetConfirm) =>
         request<void>('POST', '/api/auth/password-reset/confirm', { body }),
       invitation: (token: string) =>
-        request('GET', `/api/auth/invitations/${encodeURIComponent(token)}`, { schema: invitationPreviewSchema }),
+        request('GET', `/api/auth/invitations/${encodeURIComponent(token)}`, {
+          schema: invitationPreviewSchema,
+        }),
     },
     tokens: {
       list: () => request('GET', '/api/tokens', { schema: apiTokenListSchema }),
-      create: (body: CreateTokenRequest) => request('POST', '/api/tokens', { body, schema: createdTokenSchema }),
+      create: (body: CreateTokenRequest) =>
+        request('POST', '/api/tokens', { body, schema: createdTokenSchema }),
       revoke: (tokenId: number) => request<void>('DELETE', `/api/tokens/${id(tokenId)}`),
     },
     projects: {
       list: (all = false) =>
-        request('GET', '/api/projects', { query: { all: all ? 'true' : undefined }, schema: projectListSchema }),
+        request('GET', '/api/projects', {
+          query: { all: all ? 'true' : undefined },
+          schema: projectListSchema,
+        }),
       create: (body: CreateProjectRequest) =>
         request('POST', '/api/projects', { body, schema: projectSummarySchema }),
-      get: (projectId: number) => request('GET', `/api/projects/${id(projectId)}`, { schema: projectDetailSchema }),
+      get: (projectId: number) =>
+        request('GET', `/api/projects/${id(projectId)}`, { schema: projectDetailSchema }),
       update: (projectId: number, body: UpdateProjectRequest) =>
         request('PATCH', `/api/projects/${id(projectId)}`, { body, schema: projectSummarySchema }),
       remove: (projectId: number, confirmName: string) =>

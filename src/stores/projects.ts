@@ -13,7 +13,8 @@ import type {
 import { api } from '@/boot/api';
 import { messageOf, notifyError } from '@/boot/notify';
 
-export type AddMemberOutcome = { kind: 'member'; email: string } | { kind: 'invitation'; email: string } | null;
+export type AddMemberOutcome =
+  { kind: 'member'; email: string } | { kind: 'invitation'; email: string } | null;
 
 export const useProjectsStore = defineStore('projects', () => {
   const projects = ref<ProjectSummary[]>([]);
@@ -62,7 +63,8 @@ export const useProjectsStore = defineStore('projects', () => {
     try {
       const project = await api.projects.get(projectId);
       current.value = project;
-      invitations.value = isAdmin || project.myRole === 'owner' ? await api.projects.invitations(projectId) : [];
+      invitations.value =
+        isAdmin || project.myRole === 'owner' ? await api.projects.invitations(projectId) : [];
     } catch (error) {
       currentError.value = messageOf(error);
       notifyError(error);
@@ -72,7 +74,9 @@ export const useProjectsStore = defineStore('projects', () => {
   }
 
   function patchSummary(projectId: number, patch: Partial<ProjectSummary>): void {
-    projects.value = projects.value.map((project) => (project.id === projectId ? { ...project, ...patch } : project));
+    projects.value = projects.value.map((project) =>
+      project.id === projectId ? { ...project, ...patch } : project,
+    );
     if (current.value?.id === projectId) current.value = { ...current.value, ...patch };
   }
 

@@ -101,18 +101,23 @@ function parseValueField(field: string): Omit<HeaderCard, 'keyword'> {
   return card;
 }
 
+/** Longest header searched for its END card: 10,000 blocks (360,000 cards, 28.8 MB), far beyond real headers. */
+export const MAX_HEADER_BLOCKS = 10_000;
+
 /**
  * Parses header cards from `bytes` starting at `offset` until the END card.
  * Joins CONTINUE long strings into the card they continue.
- * Returns null when no END card is found before the end of the bytes.
+ * Returns null when no END card is found before the end of the bytes or within `maxBlocks` blocks.
  */
 export function parseHeader(
   bytes: Uint8Array,
   offset: number,
+  maxBlocks = MAX_HEADER_BLOCKS,
 ): { cards: HeaderCard[]; dataOffset: number } | null {
   const cards: HeaderCard[] = [];
   let continuing: HeaderCard | null = null;
-  for (let at = offset; at + CARD_BYTES <= bytes.length; at += CARD_BYTES) {
+  const end = Math.min(bytes.length, offset + maxBlocks * BLOCK_BYTES);
+  for (let at = offset; at + CARD_BYTES <= end; at += CARD_BYTES) {
     const text = decodeAscii(bytes, at, CARD_BYTES);
     if (text.startsWith('END') && text.slice(3).trim() === '') {
       const headerBytes = at + CARD_BYTES - offset;
@@ -165,11 +170,11 @@ export function formatReal(x: number): string {
   let text = String(x).toUpperCase();
   const [mantissa = '', exponent] = text.split('E');
   const withPoint = mantissa.includes('.') ? mantissa : `${mantissa}.0`;
-  text = exponent === undefined ? withPoint : `${withPoint}E${exponent.startsWith('-') ? '' : '+'}${exponent}`;
+  text = exponent === undefined ? withPoint : `${withPoint}E${exponent.startsWith('-') ? '-' : '+'}${exponent.replace(/^[+-]/, '')}`;
   return text;
 }
 
-/** Quotes a string value, doubling inner quotes and padding to at least 8 characters (Standard 4.0, 4.2.1.1). */
+/** Quotes a string value, doubling inner quotes; the closing quote at column 20 or later (Standard 4.0, 4.2.1.1). */
 function quote(text: string): string {
   return `'${text.replace(/'/g, "''").padEnd(8)}'`;
 }
@@ -197,7 +202,7 @@ export function formatCard(card: HeaderCard): string[] {
   else if (typeof card.value === 'boolean') valueText = (card.value ? 'T' : 'F').padStart(20);
   else if (typeof card.value === 'string') valueText = card.value.padStart(20);
   else {
-    const integral = Number.isInteger(card.value) && !card.real;
+    const integral = Number.isSafeInteger(card.value) && !card.real;
     valueText = (integral ? String(card.value) : formatReal(card.value)).padStart(20);
   }
   return [`${keyword.padEnd(8)}= ${valueText}${comment}`.slice(0, CARD_BYTES).padEnd(CARD_BYTES)];

@@ -1,0 +1,285 @@
+/**
+ * The MAP objective of the separation model and its analytic gradient.
+ *
+ *   image = K ⊛ (s + u) + noise,   s = exp(φ),  φ = μ + H(A ⊙ ξ),  u = exp(τ)
+ *
+ * - K: the PSF as a unit-sum kernel on the padded grid (Pw × Ph, periodic); the image occupies the corner
+ *   [0, W) × [0, H) of that grid, so the diffuse field continues beyond every edge into the padding instead of
+ *   wrapping round onto the opposite side of the image.
+ * - ξ (Pw·Ph values): white, prior −log p = ½ Σ ξ²; A = √P_k (spectrum.ts); H the orthonormal Hartley transform.
+ * - μ: mean log level, flat prior.
+ * - τ (W·H values, image pixels only): u = exp(τ) has an inverse-gamma(α, q) prior, density
+ *   p(u) = q^α/Γ(α) u^(−α−1) e^(−q/u); with u = e^τ the Jacobian du/dτ = u gives
+ *   p(τ) = q^α/Γ(α) e^(−ατ) e^(−q e^(−τ)),  so −log p(τ) = α τ + q e^(−τ) + const (checked against @stdlib's
+ *   invgamma logpdf in the tests). Its minimum is at u = q/α: the "off" level of a pixel. τ is clipped to
+ *   [τmin, τmax] inside the objective (zero gradient beyond), which replaces box bounds.
+ * - Likelihood over valid (unmasked) pixels, m = model:
+ *     Gaussian: ½ Σ w (m − d)²,  w = 1/σ² (scalar or per pixel);
+ *     Poisson:  Σ (λ − d log λ), λ = m + ε (a tiny floor) — masked pixels are left out of both sums.
+ *
+ * Gradient (adjoint pass): r = ∂L/∂m on valid pixels (0 elsewhere, padding included), g_t = Kᵀ ⋆ r on the padded
+ * grid; ∂/∂φ = g_t ⊙ s; ∂/∂ξ = A ⊙ H(g_t ⊙ s) + ξ; ∂/∂μ = Σ g_t ⊙ s; ∂/∂τ = g_t ⊙ u + α − q e^(−τ).
+ * One evaluation: Hartley (1 real FFT), K ⊛ (2), Kᵀ ⋆ (2), Hartley (1): three forward + inverse FFT pairs.
+ */
+import { createConvolver, createHartley2d, createRealFft2d, type Convolver, type Hartley2d } from '../fft';
+
+export interface NoiseModel {
+  kind: 'gaussian' | 'poisson';
+  /** Gaussian only: 1/σ² per image pixel (0 where masked). */
+  inverseVariance?: Float64Array;
+}
+
+export interface ModelSetup {
+  width: number;
+  height: number;
+  paddedWidth: number;
+  paddedHeight: number;
+  /** Data on the image grid (row-major W·H). */
+  data: Float64Array;
+  /** 1 = pixel enters the likelihood. */
+  valid: Uint8Array;
+  noise: NoiseModel;
+  /** PSF kernel on the padded grid, centred at (0, 0), unit sum. */
+  kernel: Float64Array;
+  alpha: number;
+  q: number;
+}
+
+/** Which blocks of parameters a stage frees. */
+export interface StageBlocks {
+  diffuse: boolean;
+  compact: boolean;
+}
+
+export class SeparationModel {
+  readonly width: number;
+  readonly height: number;
+  readonly pw: number;
+  readonly ph: number;
+  /** padded pixel count */
+  readonly n: number;
+  /** image pixel count */
+  readonly m: number;
+  readonly setup: ModelSetup;
+  /** A_k = √P_k on the padded grid (set by setSpectrum). */
+  readonly amplitude: Float64Array;
+  /** |K_k|² of every Hartley mode (equal for ±k). */
+  readonly transferPower: Float64Array;
+  tauMin: number;
+  tauMax: number;
+  /** Poisson floor ε. */
+  readonly floor: number;
+  evaluations = 0;
+
+  private readonly convolver: Convolver;
+  private readonly hartley: Hartley2d;
+  // workspaces
+  readonly phi: Float64Array;
+  readonly s: Float64Array;
+  readonly total: Float64Array;
+  readonly modelPadded: Float64Array;
+  private readonly work: Float64Array;
+  private readonly work2: Float64Array;
+
+  constructor(setup: ModelSetup) {
+    this.setup = setup;
+    this.width = setup.width;
+    this.height = setup.height;
+    this.pw = setup.paddedWidth;
+    this.ph = setup.paddedHeight;
+    this.n = this.pw * this.ph;
+    this.m = this.width * this.height;
+    this.convolver = createConvolver(this.pw, this.ph, setup.kernel);
+    this.hartley = createHartley2d(this.pw, this.ph);
+    this.amplitude = new Float64Array(this.n);
+    this.transferPower = kernelTransferPower(setup.kernel, this.pw, this.ph);
+    this.phi = new Float64Array(this.n);
+    this.s = new Float64Array(this.n);
+    this.total = new Float64Array(this.n);
+    this.modelPadded = new Float64Array(this.n);
+    this.work = new Float64Array(this.n);
+    this.work2 = new Float64Array(this.n);
+    let maxAbs = 0;
+    let sum = 0;
+    let count = 0;
+    for (let i = 0; i < this.m; i++) {
+      if (!setup.valid[i]) continue;
+      maxAbs = Math.max(maxAbs, Math.abs(setup.data[i]!));
+      sum += setup.data[i]!;
+      count++;
+    }
+    this.floor = 1e-8 * Math.max(1, count > 0 ? sum / count : 1);
+    const off = Math.log(setup.q / setup.alpha);
+    this.tauMin = off - 30;
+    this.tauMax = Math.log(Math.max(maxAbs, setup.q) * 1e4 + setup.q);
+  }
+
+  dispose(): void {
+    this.convolver.dispose();
+    this.hartley.dispose();
+  }
+
+  setSpectrum(power: Float64Array): void {
+    for (let i = 0; i < this.n; i++) this.amplitude[i] = Math.sqrt(power[i]!);
+  }
+
+  /** φ̂ = A ⊙ ξ: the Hartley coefficients of φ − μ. */
+  phiHat(xi: Float64Array, out: Float64Array): Float64Array {
+    for (let i = 0; i < this.n; i++) out[i] = this.amplitude[i]! * xi[i]!;
+    return out;
+  }
+
+  /** s = exp(μ + H(A ⊙ ξ)) into this.s (and φ into this.phi). */
+  diffuseField(xi: Float64Array, mu: number): Float64Array {
+    this.phiHat(xi, this.work);
+    this.hartley.transform(this.work, this.phi);
+    for (let i = 0; i < this.n; i++) {
+      const p = this.phi[i]! + mu;
+      this.phi[i] = p;
+      this.s[i] = Math.exp(Math.min(p, 700));
+    }
+    return this.s;
+  }
+
+  clipTau(t: number): number {
+    return t < this.tauMin ? this.tauMin : t > this.tauMax ? this.tauMax : t;
+  }
+
+  /** K ⊛ v for a padded-grid field (out may equal v). */
+  convolve(v: Float64Array, out: Float64Array): void {
+    this.convolver.apply(v, out);
+  }
+
+  /**
+   * Objective and gradient. gXi (n), gTau (m) and the returned gMu are written only for the free blocks;
+   * returns [objective, ∂/∂μ].
+   */
+  evaluate(
+    xi: Float64Array,
+    mu: number,
+    tau: Float64Array,
+    blocks: StageBlocks,
+    gXi: Float64Array | null,
+    gTau: Float64Array | null,
+  ): [number, number] {
+    this.evaluations++;
+    const { width, height, pw, n } = this;
+    const { data, valid, noise, alpha, q } = this.setup;
+    const s = this.diffuseField(xi, mu);
+    const total = this.total;
+    total.set(s);
+    let prior = 0;
+    for (let y = 0; y < height; y++) {
+      for (let x = 0; x < width; x++) {
+        const t = this.clipTau(tau[y * width + x]!);
+        const u = Math.exp(t);
+        total[y * pw + x] = total[y * pw + x]! + u;
+        prior += alpha * t + q / u;
+      }
+    }
+    for (let i = 0; i < n; i++) prior += 0.5 * xi[i]! * xi[i]!;
+    const model = this.modelPadded;
+    this.convolver.apply(total, model);
+    // likelihood and its derivative r in the model, on the padded grid (0 outside valid image pixels)
+    const r = this.work2;
+    r.fill(0);
+    let like = 0;
+    if (noise.kind === 'gaussian') {
+      const w = noise.inverseVariance!;
+      for (let y = 0; y < height; y++) {
+        for (let x = 0; x < width; x++) {
+          const i = y * width + x;
+          if (!valid[i]) continue;
+          const diff = model[y * pw + x]! - data[i]!;
+          like += 0.5 * w[i]! * diff * diff;
+          r[y * pw + x] = w[i]! * diff;
+        }
+      }
+    } else {
+      const eps = this.floor;
+      for (let y = 0; y < height; y++) {
+        for (let x = 0; x < width; x++) {
+          const i = y * width + x;
+          if (!valid[i]) continue;
+          const lambda = Math.max(model[y * pw + x]!, 0) + eps;
+          const d = data[i]!;
+          like += lambda - (d > 0 ? d * Math.log(lambda) : 0);
+          r[y * pw + x] = 1 - d / lambda;
+        }
+      }
+    }
+    const f = like + prior;
+    if (!gXi && !gTau) return [f, 0];
+    // adjoint: g_t = Kᵀ ⋆ r
+    const gt = this.work;
+    this.convolver.adjoint(r, gt);
+    let gMu = 0;
+    if (gTau) {
+      for (let y = 0; y < height; y++) {
+        for (let x = 0; x < width; x++) {
+          const i = y * width + x;
+          const raw = tau[i]!;
+          if (raw < this.tauMin || raw > this.tauMax) {
+            gTau[i] = 0;
+            continue;
+          }
+          const u = Math.exp(raw);
+          gTau[i] = blocks.compact ? gt[y * pw + x]! * u + alpha - q / u : 0;
+        }
+      }
+    }
+    if (gXi && blocks.diffuse) {
+      for (let i = 0; i < n; i++) {
+        const v = gt[i]! * s[i]!;
+        r[i] = v;
+        gMu += v;
+      }
+      this.hartley.transform(r, gXi);
+      for (let i = 0; i < n; i++) gXi[i] = this.amplitude[i]! * gXi[i]! + xi[i]!;
+    } else if (gXi) {
+      gXi.fill(0);
+    }
+    return [f, gMu];
+  }
+
+  /**
+   * Likelihood curvature per image pixel in the model (w = 1/σ², or 1/λ for Poisson at the current model),
+   * 0 where masked. Uses this.modelPadded from the last evaluation for Poisson.
+   */
+  curvature(out: Float64Array): Float64Array {
+    const { width, height, pw } = this;
+    const { valid, noise } = this.setup;
+    for (let y = 0; y < height; y++) {
+      for (let x = 0; x < width; x++) {
+        const i = y * width + x;
+        if (!valid[i]) out[i] = 0;
+        else if (noise.kind === 'gaussian') out[i] = noise.inverseVariance![i]!;
+        else out[i] = 1 / (Math.max(this.modelPadded[y * pw + x]!, 0) + Math.max(this.floor, 0.5));
+      }
+    }
+    return out;
+  }
+}
+
+/** |K_k|² for every Hartley mode of the padded grid, from the real FFT of the kernel (Hermitian mirror). */
+export function kernelTransferPower(kernel: Float64Array, pw: number, ph: number): Float64Array {
+  const fft = createRealFft2d(pw, ph);
+  const sw = fft.spectrumWidth;
+  const re = new Float64Array(sw * ph);
+  const im = new Float64Array(sw * ph);
+  try {
+    fft.forward(kernel, re, im);
+  } finally {
+    fft.dispose();
+  }
+  const out = new Float64Array(pw * ph);
+  for (let ky = 0; ky < ph; ky++) {
+    for (let kx = 0; kx < pw; kx++) {
+      const sx = kx < sw ? kx : pw - kx;
+      const sy = kx < sw ? ky : (ph - ky) % ph;
+      const j = sy * sw + sx;
+      out[ky * pw + kx] = re[j]! * re[j]! + im[j]! * im[j]!;
+    }
+  }
+  return out;
+}

@@ -1,0 +1,433 @@
+/**
+ * The staged MAP fit of the separation model (model.ts), following the measured facts in METHOD-NOTES:
+ *
+ * 1. Diffuse only, with the spectrum tapered at PSF scales (P_k · exp(−(k/kc)²), kc = 1/(2·FWHM)), compact pixels
+ *    held "off" (u = q/α). Two passes, the spectrum re-estimated from modes below kc after the first.
+ * 2. The field is re-expressed for the full (untapered) spectrum: ξ_k ← φ̂_k / A_k.
+ * 3. `seedRounds` rounds of: seed compact pixels at matched-filter maxima of the residual above `seedSnr`
+ *    (seed-points.ts), fit diffuse and compact jointly, re-estimate the spectrum (critical filter, spectrum.ts)
+ *    and re-express ξ. A final joint fit follows the last update.
+ * Every fit is L-BFGS (optimise/lbfgs.ts) on preconditioned variables, an exact change of variables
+ * x = x0 + D ⊙ y per stage with the diagonal estimates (METHOD-NOTES)
+ *   diffuse modes: D_k = 1/√(1 + P_k |K_k|² κ), κ = Σ_valid s² w / N;   mean level: D_μ = 1/√(1 + Σ_valid s² w);
+ *   compact pixels: D = 1/√(1 + u² Σ K² w + q/u);
+ * stopping when the objective falls by less than `absoluteDecrease` nats per iteration (3 in a row).
+ * Deterministic: no randomness anywhere; the same input and settings give the same numbers.
+ */
+import { createConvolver, goodFftSize } from '../fft';
+import { minimiseLbfgs } from '../optimise/lbfgs';
+import { psfFwhmPx, psfKernelOnGrid, type Psf } from '../psf';
+import { SeparationModel, type StageBlocks } from './model';
+import { matchedFilterSeeds } from './seed-points';
+import {
+  binnedPower,
+  fitPowerLaw,
+  modeWavenumbers,
+  powerLawSpectrum,
+  type BinnedPower,
+  type SpectrumParameters,
+} from './spectrum';
+
+export interface FitProgress {
+  stage: string;
+  iteration: number;
+  objective: number;
+  gradNorm: number;
+  evaluations: number;
+}
+
+export interface FitInput {
+  width: number;
+  height: number;
+  data: Float64Array;
+  /** 1 = pixel enters the likelihood */
+  valid: Uint8Array;
+  noise: { kind: 'gaussian'; sigma: number | Float64Array } | { kind: 'poisson' };
+  psf: Psf;
+}
+
+export interface FitOptions {
+  /** Inverse-gamma shape α. @default 1.5 */
+  alpha?: number;
+  /** Inverse-gamma scale q in units of the single-source flux error σ_F. @default 0.05 */
+  qRelative?: number;
+  /** Diffuse spectrum: amplitude and slope estimated from the data unless fixed here. */
+  spectrum?: { amplitude?: number | null; slope?: number | null; estimate?: boolean };
+  /** @default 2 */
+  seedRounds?: number;
+  /** Matched-filter SNR for seeding compact pixels. @default 3 */
+  seedSnr?: number;
+  /** Iterations per stage. @default 300 */
+  maxIterations?: number;
+  /** Stop a stage when the objective falls by less than this per iteration (nats). @default 0.01 */
+  absoluteDecrease?: number;
+  /** Range allowed for the fitted slope γ. @default [2, 6] */
+  slopeRange?: [number, number];
+  onProgress?: (p: FitProgress) => void;
+  signal?: AbortSignal;
+}
+
+export interface FitResult {
+  width: number;
+  height: number;
+  paddedWidth: number;
+  paddedHeight: number;
+  /** s on the image grid */
+  diffuseSky: Float64Array;
+  /** K ⊛ s on the image grid */
+  diffuse: Float64Array;
+  /** u on the image grid */
+  compactSky: Float64Array;
+  /** K ⊛ u on the image grid */
+  compact: Float64Array;
+  model: Float64Array;
+  /** the "off" level q/α of u */
+  pedestal: number;
+  alpha: number;
+  q: number;
+  /** single-source flux error σ_F used to scale q */
+  fluxErrorScale: number;
+  spectrum: SpectrumParameters & { estimated: boolean; binned: BinnedPower };
+  iterations: number;
+  evaluations: number;
+  objective: number;
+  converged: boolean;
+  trace: { stage: string; iteration: number; objective: number; gradNorm: number }[];
+  seedsPerRound: number[];
+}
+
+/** Padded grid side: room for the diffuse field beyond the edge (≥ 20% of the side, and ≥ 4 FWHM + 8 px). */
+export function paddedSize(side: number, fwhmMajor: number): number {
+  return goodFftSize(side + Math.max(Math.ceil(0.2 * side), Math.ceil(4 * fwhmMajor) + 8));
+}
+
+function median(values: number[]): number {
+  const a = values.slice().sort((x, y) => x - y);
+  const n = a.length;
+  return n % 2 ? a[(n - 1) / 2]! : (a[n / 2 - 1]! + a[n / 2]!) / 2;
+}
+
+export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult {
+  const { width, height, data, valid, psf } = input;
+  const alpha = options.alpha ?? 1.5;
+  const qRelative = options.qRelative ?? 0.05;
+  const seedRounds = options.seedRounds ?? 2;
+  const seedSnr = options.seedSnr ?? 3;
+  const maxIterations = options.maxIterations ?? 300;
+  const absoluteDecrease = options.absoluteDecrease ?? 0.01;
+  const [slopeMin, slopeMax] = options.slopeRange ?? [2, 6];
+  const estimateSpectrum = options.spectrum?.estimate ?? true;
+  const signal = options.signal;
+
+  const fwhm = psfFwhmPx(psf);
+  const pw = paddedSize(width, fwhm.major);
+  const ph = paddedSize(height, fwhm.major);
+  const kernel = psfKernelOnGrid(psf, pw, ph);
+  let sumK2 = 0;
+  for (const v of kernel) sumK2 += v * v;
+
+  // Noise weights and the single-source flux error σ_F = σ/√ΣK² (Gaussian) or √(mean counts)/√ΣK² (Poisson).
+  const m = width * height;
+  const validValues: number[] = [];
+  for (let i = 0; i < m; i++) if (valid[i]) validValues.push(data[i]!);
+  let inverseVariance: Float64Array | undefined;
+  let sigmaTypical: number;
+  if (input.noise.kind === 'gaussian') {
+    const sigma = input.noise.sigma;
+    inverseVariance = new Float64Array(m);
+    const sigmas: number[] = [];
+    for (let i = 0; i < m; i++) {
+      const si = typeof sigma === 'number' ? sigma : sigma[i]!;
+      if (valid[i] && si > 0 && Number.isFinite(si)) {
+        inverseVariance[i] = 1 / (si * si);
+        sigmas.push(si);
+      }
+    }
+    sigmaTypical = median(sigmas);
+  } else {
+    const mean = validValues.reduce((s, v) => s + v, 0) / validValues.length;
+    sigmaTypical = Math.sqrt(Math.max(mean, 0.01));
+  }
+  const fluxErrorScale = sigmaTypical / Math.sqrt(sumK2);
+  const q = qRelative * fluxErrorScale;
+  const pedestal = q / alpha;
+
+  const model = new SeparationModel({
+    width,
+    height,
+    paddedWidth: pw,
+    paddedHeight: ph,
+    data,
+    valid,
+    noise: input.noise.kind === 'gaussian' ? { kind: 'gaussian', inverseVariance } : { kind: 'poisson' },
+    kernel,
+    alpha,
+    q,
+  });
+  const kernelSquared = kernel.map((v) => v * v);
+  const psfSquared = createConvolver(pw, ph, kernelSquared);
+  const psfConvolver = createConvolver(pw, ph, kernel);
+  const n = model.n;
+  const k = modeWavenumbers(pw, ph);
+  const kc = 1 / (2 * fwhm.major);
+  const turnover = 1 / Math.max(pw, ph);
+  const power = new Float64Array(n);
+
+  try {
+    // Data-driven start: μ from the median level above the pedestal; the spectrum amplitude from the variance of
+    // the log of a lightly smoothed, floored copy of the data; slope 3 (a common starting value).
+    const level = Math.max(median(validValues) - pedestal, 0.1 * sigmaTypical);
+    let mu = Math.log(level);
+    const logs: number[] = [];
+    {
+      const r = Math.max(1, Math.round(fwhm.major));
+      for (let y = 0; y < height; y += r) {
+        for (let x = 0; x < width; x += r) {
+          let s = 0;
+          let c = 0;
+          for (let yy = Math.max(0, y - r); yy <= Math.min(height - 1, y + r); yy++) {
+            for (let xx = Math.max(0, x - r); xx <= Math.min(width - 1, x + r); xx++) {
+              if (valid[yy * width + xx]) {
+                s += data[yy * width + xx]!;
+                c++;
+              }
+            }
+          }
+          if (c > 0) logs.push(Math.log(Math.max(s / c - pedestal, 0.3 * sigmaTypical, 0.1 * level)));
+        }
+      }
+    }
+    const meanLog = logs.reduce((s, v) => s + v, 0) / logs.length;
+    const varLog = logs.reduce((s, v) => s + (v - meanLog) ** 2, 0) / logs.length;
+    let spectrum: SpectrumParameters = { amplitude: 1, slope: options.spectrum?.slope ?? 3, turnover };
+    {
+      // amplitude so that the mean of P_k over the modes (the pointwise variance of φ) is the measured variance
+      powerLawSpectrum(k, spectrum, null, power);
+      let mean = 0;
+      for (let i = 0; i < n; i++) mean += power[i]!;
+      mean /= n;
+      spectrum.amplitude = options.spectrum?.amplitude ?? Math.max(varLog, 0.01) / mean;
+    }
+
+    const xi = new Float64Array(n);
+    const tau = new Float64Array(m).fill(Math.log(pedestal));
+    let evaluations = 0;
+    let iterations = 0;
+    let objective = 0;
+    let converged = false;
+    const trace: FitResult['trace'] = [];
+    const seedsPerRound: number[] = [];
+    const weight = new Float64Array(m);
+    const phiHat = new Float64Array(n);
+    let binned: BinnedPower = { k: [], power: [], mapPower: [], modes: [] };
+
+    const setSpectrum = (taper: number | null): void => {
+      powerLawSpectrum(k, spectrum, taper, power);
+      model.setSpectrum(power);
+    };
+
+    const runStage = (stage: string, blocks: StageBlocks): void => {
+      // preconditioner from the current state
+      model.evaluate(xi, mu, tau, blocks, null, null);
+      model.curvature(weight);
+      const s = model.s;
+      let sw = 0;
+      for (let y = 0; y < height; y++) {
+        for (let x = 0; x < width; x++) sw += s[y * pw + x]! ** 2 * weight[y * width + x]!;
+      }
+      const kappa = sw / n;
+      const nDiffuse = blocks.diffuse ? n + 1 : 0;
+      const nCompact = blocks.compact ? m : 0;
+      const d = new Float64Array(nDiffuse + nCompact);
+      if (blocks.diffuse) {
+        for (let i = 0; i < n; i++) d[i] = 1 / Math.sqrt(1 + power[i]! * model.transferPower[i]! * kappa);
+        d[n] = 1 / Math.sqrt(1 + sw);
+      }
+      if (blocks.compact) {
+        for (let i = 0; i < m; i++) {
+          const u = Math.exp(model.clipTau(tau[i]!));
+          d[nDiffuse + i] = 1 / Math.sqrt(1 + u * u * sumK2 * weight[i]! + q / u);
+        }
+      }
+      const xi0 = Float64Array.from(xi);
+      const mu0 = mu;
+      const tau0 = Float64Array.from(tau);
+      const gXi = new Float64Array(n);
+      const gTau = new Float64Array(m);
+      const unpack = (y: Float64Array): void => {
+        if (blocks.diffuse) {
+          for (let i = 0; i < n; i++) xi[i] = xi0[i]! + d[i]! * y[i]!;
+          mu = mu0 + d[n]! * y[n]!;
+        }
+        if (blocks.compact)
+          for (let i = 0; i < m; i++) tau[i] = tau0[i]! + d[nDiffuse + i]! * y[nDiffuse + i]!;
+      };
+      const result = minimiseLbfgs(
+        (y, g) => {
+          unpack(y);
+          const [f, gMu] = model.evaluate(
+            xi,
+            mu,
+            tau,
+            blocks,
+            blocks.diffuse ? gXi : null,
+            blocks.compact ? gTau : null,
+          );
+          if (blocks.diffuse) {
+            for (let i = 0; i < n; i++) g[i] = d[i]! * gXi[i]!;
+            g[n] = d[n]! * gMu;
+          }
+          if (blocks.compact) for (let i = 0; i < m; i++) g[nDiffuse + i] = d[nDiffuse + i]! * gTau[i]!;
+          return f;
+        },
+        new Float64Array(d.length),
+        {
+          maxIterations,
+          maxEvaluations: 4 * maxIterations,
+          absoluteDecrease,
+          stallIterations: 3,
+          gradientTolerance: 1e-6,
+          signal,
+          onProgress: (p) => {
+            const entry = {
+              stage,
+              iteration: iterations + p.iteration,
+              objective: p.objective,
+              gradNorm: p.gradNorm,
+            };
+            trace.push(entry);
+            options.onProgress?.({ ...entry, evaluations: evaluations + p.evaluations });
+          },
+        },
+      );
+      unpack(result.x);
+      iterations += result.iterations;
+      evaluations += result.evaluations;
+      objective = result.f;
+      converged = result.converged;
+    };
+
+    /** Critical-filter update of (a, γ) from modes up to kMax; ξ re-expressed for the new spectrum. */
+    const updateSpectrum = (kMax: number, taperAfter: number | null): void => {
+      model.phiHat(xi, phiHat);
+      model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
+      model.curvature(weight);
+      let sw = 0;
+      for (let y = 0; y < height; y++) {
+        for (let x = 0; x < width; x++) sw += model.s[y * pw + x]! ** 2 * weight[y * width + x]!;
+      }
+      binned = binnedPower(k, phiHat, power, model.transferPower, sw / n, kMax);
+      if (estimateSpectrum && binned.k.length >= 2) {
+        const fitted = fitPowerLaw(binned, turnover, slopeMin, slopeMax);
+        spectrum = {
+          amplitude: options.spectrum?.amplitude ?? fitted.amplitude,
+          slope: options.spectrum?.slope ?? fitted.slope,
+          turnover,
+        };
+        if (options.spectrum?.slope != null && options.spectrum?.amplitude == null) {
+          // slope fixed by the user: refit the amplitude alone
+          let sx = 0;
+          let sww = 0;
+          for (let b = 0; b < binned.k.length; b++) {
+            const kb = binned.k[b]!;
+            sx +=
+              binned.modes[b]! *
+              (Math.log(binned.power[b]!) + (spectrum.slope / 2) * Math.log(kb * kb + turnover ** 2));
+            sww += binned.modes[b]!;
+          }
+          spectrum.amplitude = Math.exp(sx / sww);
+        }
+      }
+      setSpectrum(taperAfter);
+      for (let i = 0; i < n; i++) xi[i] = model.amplitude[i]! > 0 ? phiHat[i]! / model.amplitude[i]! : 0;
+    };
+
+    // Stage 1: diffuse only, tapered spectrum.
+    setSpectrum(kc);
+    runStage('diffuse', { diffuse: true, compact: false });
+    updateSpectrum(kc, kc);
+    runStage('diffuse', { diffuse: true, compact: false });
+    // Stage 2: full spectrum.
+    updateSpectrum(kc, null);
+    const residual = new Float64Array(m);
+    for (let round = 1; round <= seedRounds; round++) {
+      model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
+      model.curvature(weight);
+      for (let y = 0; y < height; y++) {
+        for (let x = 0; x < width; x++) {
+          const i = y * width + x;
+          residual[i] = valid[i] ? data[i]! - model.modelPadded[y * pw + x]! : 0;
+        }
+      }
+      const seeds = matchedFilterSeeds({
+        width,
+        height,
+        pw,
+        ph,
+        residual,
+        weight,
+        psf: psfConvolver,
+        psfSquared,
+        snr: seedSnr,
+      });
+      seedsPerRound.push(seeds.length);
+      for (const seed of seeds) {
+        const u = Math.exp(model.clipTau(tau[seed.index]!));
+        tau[seed.index] = model.clipTau(Math.log(u + seed.flux));
+      }
+      runStage(`joint-${round}`, { diffuse: true, compact: true });
+      updateSpectrum(0.5, null);
+    }
+    runStage('final', { diffuse: true, compact: true });
+
+    // Components on the image grid.
+    model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
+    const crop = (padded: Float64Array): Float64Array => {
+      const out = new Float64Array(m);
+      for (let y = 0; y < height; y++) out.set(padded.subarray(y * pw, y * pw + width), y * width);
+      return out;
+    };
+    const diffuseSky = crop(model.s);
+    const modelImage = crop(model.modelPadded);
+    const sPadded = Float64Array.from(model.s);
+    model.convolve(sPadded, sPadded);
+    const diffuse = crop(sPadded);
+    const compactSky = Float64Array.from(tau, (t) => Math.exp(model.clipTau(t)));
+    const compact = new Float64Array(m);
+    for (let i = 0; i < m; i++) compact[i] = modelImage[i]! - diffuse[i]!;
+    // final binned power of the MAP field for the diagnostic plot
+    model.phiHat(xi, phiHat);
+    model.curvature(weight);
+    let sw = 0;
+    for (let y = 0; y < height; y++)
+      for (let x = 0; x < width; x++) sw += model.s[y * pw + x]! ** 2 * weight[y * width + x]!;
+    binned = binnedPower(k, phiHat, power, model.transferPower, sw / n, 0.5);
+
+    return {
+      width,
+      height,
+      paddedWidth: pw,
+      paddedHeight: ph,
+      diffuseSky,
+      diffuse,
+      compactSky,
+      compact,
+      model: modelImage,
+      pedestal,
+      alpha,
+      q,
+      fluxErrorScale,
+      spectrum: { ...spectrum, estimated: estimateSpectrum, binned },
+      iterations,
+      evaluations: model.evaluations,
+      objective,
+      converged,
+      trace,
+      seedsPerRound,
+    };
+  } finally {
+    model.dispose();
+    psfSquared.dispose();
+    psfConvolver.dispose();
+  }
+}

@@ -9,7 +9,7 @@
  * Tolerance: 0 for every number. Writers print the shortest decimal that round-trips to the same IEEE double
  * (CSV, VOTable) or write the double's big-endian bytes (FITS), so astropy must return the identical value.
  */
-import { mkdtempSync, readFileSync, writeFileSync } from 'node:fs';
+import { existsSync, mkdtempSync, readdirSync, readFileSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
@@ -17,6 +17,8 @@ import { sourceColumns, sourcesToTable } from '../../server/catalogue/catalogue-
 import type { CatalogueTable, CellValue } from '../../server/catalogue/catalogue-table';
 import { csvSidecar, tableToCsv } from '../../server/catalogue/export-csv';
 import { tableToVotable } from '../../server/catalogue/export-votable';
+import { tableToFitsBintable } from '../../server/catalogue/export-fits-table';
+import { parseCatalogueFormats, writeCatalogueFiles } from '../../server/catalogue/write-catalogue-files';
 import { readBackWithAstropy } from './astropy-read-back';
 import { sampleProvenance, sampleSources } from './sample-sources';
 
@@ -142,5 +144,112 @@ describe('VOTable 1.4 export read back by astropy.io.votable (verify="exception"
 
   it('returns every value exactly, nulls as empty cells (NaN for double)', () => {
     compareRows(read.rows, table, 'votable');
+  });
+});
+
+describe('FITS BINTABLE export read back by astropy.io.fits (verify("exception")) and astropy.table', () => {
+  const path = join(dir, 'catalogue.fits');
+  writeFileSync(path, tableToFitsBintable(table));
+  const read = readBackWithAstropy({ fits: path }).fits;
+
+  it('has an empty primary HDU and a BINTABLE named CATALOGUE with the mandatory cards (Standard 4.0 §7.3.1)', () => {
+    expect(read.hdus).toBe(2);
+    expect(read.file_size % 2880).toBe(0);
+    expect(read.headers[0].NAXIS).toBe(0);
+    expect(read.headers[0].EXTEND).toBe(true);
+    const header = read.headers[1];
+    expect(header.XTENSION).toBe('BINTABLE');
+    expect(header.EXTNAME).toBe('CATALOGUE');
+    // Row width: 1 J (4 bytes) + 14 D (8 bytes) + flags as 22A ('edge|near-mask|blended' is 22 characters).
+    expect(header.NAXIS1).toBe(4 + 14 * 8 + 22);
+    expect(header.NAXIS2).toBe(3);
+    expect(header.PCOUNT).toBe(0);
+    expect(header.GCOUNT).toBe(1);
+    expect(header.TFIELDS).toBe(16);
+    expect(read.columns.map((column: { format: string }) => column.format)).toEqual([
+      'J',
+      ...Array.from({ length: 14 }, () => 'D'),
+      '22A',
+    ]);
+    expect(read.columns.find((column: { name: string }) => column.name === 'flux_density').unit).toBe('Jy');
+    expect(read.columns.find((column: { name: string }) => column.name === 'ra').unit).toBe('deg');
+  });
+
+  it('carries provenance cards', () => {
+    const header = read.headers[1];
+    expect(header.IMAGE).toBe(sampleProvenance.imageName);
+    expect(header.IMGSHA).toBe(sampleProvenance.imageSha256);
+    expect(header.BMAJ).toBe(6.5 / 3600);
+    expect(header.SETDIGST).toBe(sampleProvenance.settingsDigest);
+    expect(header.SKYSVER).toBe('0.1.0');
+  });
+
+  it('returns every value exactly (nulls as NaN)', () => {
+    expect(read.names).toEqual(table.columns.map((column) => column.name));
+    compareRows(read.rows, table, 'fits');
+  });
+
+  it('writes nullable integers with TNULLn and an empty table', () => {
+    const withNulls: CatalogueTable = {
+      ...table,
+      columns: [
+        { name: 'n', datatype: 'int', unit: '', ucd: 'meta.number', description: 'n', nullable: true },
+      ],
+      rows: [[5], [null], [-7]],
+    };
+    const nullsPath = join(dir, 'nulls.fits');
+    writeFileSync(nullsPath, tableToFitsBintable(withNulls));
+    const empty: CatalogueTable = { ...table, rows: [] };
+    const emptyPath = join(dir, 'empty.fits');
+    writeFileSync(emptyPath, tableToFitsBintable(empty));
+    const back = readBackWithAstropy({ fits: nullsPath }).fits;
+    expect(back.columns[0].null).toBe(-2147483648);
+    expect(back.rows).toEqual([[5], [null], [-7]]);
+    expect(readBackWithAstropy({ fits: emptyPath }).fits.rows).toEqual([]);
+  });
+});
+
+describe('writeCatalogueFiles', () => {
+  it('writes catalogue.csv + catalogue.json, catalogue.vot and catalogue.fits that astropy reads', async () => {
+    const out = join(dir, 'run-out');
+    const written = await writeCatalogueFiles(
+      out,
+      parseCatalogueFormats('csv, votable,fits'),
+      sampleSources,
+      sampleProvenance,
+    );
+    expect(written.map((path) => path.slice(out.length + 1))).toEqual([
+      'catalogue.csv',
+      'catalogue.json',
+      'catalogue.vot',
+      'catalogue.fits',
+    ]);
+    expect(readdirSync(out).sort()).toEqual([
+      'catalogue.csv',
+      'catalogue.fits',
+      'catalogue.json',
+      'catalogue.vot',
+    ]);
+    const read = readBackWithAstropy({
+      csv: join(out, 'catalogue.csv'),
+      votable: join(out, 'catalogue.vot'),
+      fits: join(out, 'catalogue.fits'),
+    });
+    for (const reader of ['csv', 'votable', 'fits'] as const) compareRows(read[reader].rows, table, reader);
+    expect(JSON.parse(readFileSync(join(out, 'catalogue.json'), 'utf8')).provenance.imageName).toBe(
+      sampleProvenance.imageName,
+    );
+  });
+
+  it('refuses unknown formats and bad rows before writing anything', async () => {
+    expect(() => parseCatalogueFormats('csv,xlsx')).toThrow(
+      'Unknown catalogue format "xlsx"; use csv, votable or fits.',
+    );
+    const out = join(dir, 'bad-out');
+    const broken = [{ ...sampleSources[0]!, id: 1.5 }];
+    await expect(writeCatalogueFiles(out, ['csv', 'fits'], broken, sampleProvenance)).rejects.toThrow(
+      'Row 1, column id: 1.5 is not a 32-bit integer.',
+    );
+    expect(existsSync(out)).toBe(false);
   });
 });

@@ -3,7 +3,7 @@
  * The same declaration mounts the Express route and registers it in the OpenAPI document,
  * so the document cannot miss a route.
  */
-import { OpenAPIRegistry } from '@asteasolutions/zod-to-openapi';
+import type { OpenAPIRegistry } from '@asteasolutions/zod-to-openapi';
 import type { NextFunction, Request, RequestHandler, Response, Router } from 'express';
 import type { ParamsDictionary, Query } from 'express-serve-static-core';
 import type { ZodType, z } from 'zod';
@@ -91,7 +91,6 @@ const errorDescriptions: Record<number, string> = {
 
 /** Adds every route to an OpenAPI registry; the errors a route can answer are listed with the shared error body. */
 export function registerRoutes(registry: OpenAPIRegistry, routes: AnyRouteSpec[]): void {
-  registry.register('Error', errorBodySchema);
   registry.registerComponent('securitySchemes', 'sessionCookie', {
     type: 'apiKey',
     in: 'cookie',

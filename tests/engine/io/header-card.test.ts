@@ -26,7 +26,7 @@ describe('formatCard', () => {
     // Closing quote in column 20: 8 characters between the quotes after doubling.
     expect(formatCard({ keyword: 'OBJECT', value: "Lyra's" })).toEqual([card("OBJECT  = 'Lyra''s '")]);
     expect(formatCard({ keyword: 'AVOGADRO', value: 6.02214076e23 })).toEqual([card('AVOGADRO=       6.02214076E+23')]);
-    expect(formatCard({ keyword: 'TINY', value: -1e-300 })).toEqual([card('TINY    =             -1.0E-300')]);
+    expect(formatCard({ keyword: 'TINY', value: -1e-300 })).toEqual([card('TINY    =            -1.0E-300')]);
   });
   it('writes commentary cards and splits long text', () => {
     expect(formatCard({ keyword: 'HISTORY', comment: 'made here' })).toEqual([card('HISTORY made here')]);

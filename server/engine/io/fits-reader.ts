@@ -14,21 +14,8 @@
  * The final data block may lack its padding (common in files written by hand); missing data bytes are an error.
  */
 import { parseWcsWithWarnings } from '../wcs/wcs';
-import {
-  BLOCK_BYTES,
-  cardNumber,
-  cardString,
-  findCard,
-  parseHeader,
-  type HeaderCard,
-} from './header-card';
-import {
-  checkContent,
-  checkDimensions,
-  ImageReadError,
-  type Beam,
-  type SkyImage,
-} from './sky-image';
+import { BLOCK_BYTES, cardNumber, cardString, findCard, parseHeader, type HeaderCard } from './header-card';
+import { checkContent, checkDimensions, ImageReadError, type Beam, type SkyImage } from './sky-image';
 
 export interface FitsReadOptions {
   /** 1-based plane of a cube. @default none (a cube without it is refused) */
@@ -80,9 +67,15 @@ export function readFits(bytes: Uint8Array, options: FitsReadOptions = {}): SkyI
       );
     }
     if (primary.axes.length === 1) {
-      throw new ImageReadError('not-an-image', `This FITS file holds a 1-D array of ${primary.axes[0]} values, not an image`);
+      throw new ImageReadError(
+        'not-an-image',
+        `This FITS file holds a 1-D array of ${primary.axes[0]} values, not an image`,
+      );
     }
-    throw new ImageReadError('no-image', 'This FITS file holds no image: no primary array and no IMAGE extension with data');
+    throw new ImageReadError(
+      'no-image',
+      'This FITS file holds no image: no primary array and no IMAGE extension with data',
+    );
   }
   const header = chosen.index > 0 ? inherit(primary.cards, chosen.cards) : chosen.cards;
   return decodeImage(bytes, chosen, header, options.plane, maxPixels);
@@ -99,7 +92,8 @@ function hasImageData(hdu: Hdu): boolean {
 /** With INHERIT = T an extension also takes the primary header's cards it does not set itself (common practice). */
 function inherit(primaryCards: HeaderCard[], extensionCards: HeaderCard[]): HeaderCard[] {
   if (findCard(extensionCards, 'INHERIT')?.value !== true) return extensionCards;
-  const structural = /^(SIMPLE|BITPIX|NAXIS\d*|EXTEND|PCOUNT|GCOUNT|XTENSION|EXTNAME|CHECKSUM|DATASUM|BLANK|BSCALE|BZERO)$/;
+  const structural =
+    /^(SIMPLE|BITPIX|NAXIS\d*|EXTEND|PCOUNT|GCOUNT|XTENSION|EXTNAME|CHECKSUM|DATASUM|BLANK|BSCALE|BZERO)$/;
   const own = new Set(extensionCards.map((card) => card.keyword));
   const inherited = primaryCards.filter(
     (card) => card.value !== undefined && !structural.test(card.keyword) && !own.has(card.keyword),
@@ -115,7 +109,10 @@ function readHdu(bytes: Uint8Array, offset: number, index: number): Hdu {
     if (index === 0 && !looksLikeFits(bytes)) {
       throw new ImageReadError('not-fits', 'This is not a FITS file: it does not begin with SIMPLE = T');
     }
-    throw new ImageReadError('header-without-end', `The FITS ${where} has no END card: the file is cut short or damaged`);
+    throw new ImageReadError(
+      'header-without-end',
+      `The FITS ${where} has no END card: the file is cut short or damaged`,
+    );
   }
   const { cards, dataOffset } = parsed;
   const bitpix = cardNumber(cards, 'BITPIX');
@@ -128,7 +125,10 @@ function readHdu(bytes: Uint8Array, offset: number, index: number): Hdu {
   }
   const naxis = cardNumber(cards, 'NAXIS');
   if (naxis === undefined || !Number.isInteger(naxis) || naxis < 0 || naxis > 999) {
-    throw new ImageReadError('bad-header', `The FITS ${where} has no valid NAXIS card (an integer from 0 to 999)`);
+    throw new ImageReadError(
+      'bad-header',
+      `The FITS ${where} has no valid NAXIS card (an integer from 0 to 999)`,
+    );
   }
   const axes: number[] = [];
   for (let n = 1; n <= naxis; n++) {
@@ -147,7 +147,10 @@ function readHdu(bytes: Uint8Array, offset: number, index: number): Hdu {
   const elements = naxis === 0 ? 0 : (groups ? axes.slice(1) : axes).reduce((a, b) => a * b, 1);
   const dataBytes = naxis === 0 ? 0 : (Math.abs(bitpix) / 8) * gcount * (pcount + elements);
   if (!Number.isFinite(dataBytes) || !Number.isSafeInteger(Math.ceil(dataBytes))) {
-    throw new ImageReadError('bad-header', `The FITS ${where} declares an impossible data size (${axes.join(' × ')})`);
+    throw new ImageReadError(
+      'bad-header',
+      `The FITS ${where} declares an impossible data size (${axes.join(' × ')})`,
+    );
   }
   return { cards, index, dataOffset, dataBytes, bitpix, axes };
 }

@@ -170,7 +170,10 @@ export function formatReal(x: number): string {
   let text = String(x).toUpperCase();
   const [mantissa = '', exponent] = text.split('E');
   const withPoint = mantissa.includes('.') ? mantissa : `${mantissa}.0`;
-  text = exponent === undefined ? withPoint : `${withPoint}E${exponent.startsWith('-') ? '-' : '+'}${exponent.replace(/^[+-]/, '')}`;
+  text =
+    exponent === undefined
+      ? withPoint
+      : `${withPoint}E${exponent.startsWith('-') ? '-' : '+'}${exponent.replace(/^[+-]/, '')}`;
   return text;
 }
 
@@ -196,7 +199,8 @@ export function formatCard(card: HeaderCard): string[] {
     return records;
   }
   const comment = card.comment ? ` / ${card.comment}` : '';
-  if (typeof card.value === 'string' && !COMPLEX.test(card.value)) return formatString(keyword, card.value, comment);
+  if (typeof card.value === 'string' && !COMPLEX.test(card.value))
+    return formatString(keyword, card.value, comment);
   let valueText: string;
   if (card.value === null) valueText = '';
   else if (typeof card.value === 'boolean') valueText = (card.value ? 'T' : 'F').padStart(20);

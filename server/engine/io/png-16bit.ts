@@ -55,11 +55,14 @@ export function decodePng16(bytes: Uint8Array): Png16 {
     throw new ImageReadError('bad-raster', `PNG colour type ${header.colourType} cannot have 16-bit samples`);
   }
   if (header.interlace !== 0) {
-    throw new ImageReadError('bad-raster', 'Interlaced 16-bit PNG images are not supported; save without interlacing');
+    throw new ImageReadError(
+      'bad-raster',
+      'Interlaced 16-bit PNG images are not supported; save without interlacing',
+    );
   }
   const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   const idat: Uint8Array[] = [];
-  for (let at = 8; at + 12 <= bytes.length; ) {
+  for (let at = 8; at + 12 <= bytes.length;) {
     const length = view.getUint32(at);
     const type = String.fromCharCode(...bytes.subarray(at + 4, at + 8));
     if (at + 12 + length > bytes.length) throw new ImageReadError('truncated', 'The PNG file is truncated');
@@ -78,7 +81,10 @@ export function decodePng16(bytes: Uint8Array): Png16 {
     throw new ImageReadError('bad-raster', `The PNG image data are corrupt (${(error as Error).message})`);
   }
   if (raw.length < expected) {
-    throw new ImageReadError('truncated', `The PNG image data are truncated: expected ${expected} bytes, got ${raw.length}`);
+    throw new ImageReadError(
+      'truncated',
+      `The PNG image data are truncated: expected ${expected} bytes, got ${raw.length}`,
+    );
   }
   const pixels = new Uint8Array(height * stride);
   for (let y = 0; y < height; y++) {
@@ -89,12 +95,19 @@ export function decodePng16(bytes: Uint8Array): Png16 {
     unfilter(filter ?? 255, line, out, prior, bpp);
   }
   const samples = new Uint16Array(width * height * channels);
-  for (let i = 0; i < samples.length; i++) samples[i] = ((pixels[2 * i] ?? 0) << 8) | (pixels[2 * i + 1] ?? 0);
+  for (let i = 0; i < samples.length; i++)
+    samples[i] = ((pixels[2 * i] ?? 0) << 8) | (pixels[2 * i + 1] ?? 0);
   return { width, height, channels, samples };
 }
 
 /** Reverses one scanline's filter (PNG spec section 9.2); `prior` is the previous reconstructed line or null. */
-function unfilter(filter: number, line: Uint8Array, out: Uint8Array, prior: Uint8Array | null, bpp: number): void {
+function unfilter(
+  filter: number,
+  line: Uint8Array,
+  out: Uint8Array,
+  prior: Uint8Array | null,
+  bpp: number,
+): void {
   for (let i = 0; i < line.length; i++) {
     const x = line[i] ?? 0;
     const a = i >= bpp ? (out[i - bpp] ?? 0) : 0;

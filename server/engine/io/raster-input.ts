@@ -17,7 +17,13 @@ import { checkContent, checkDimensions, ImageReadError, type ImageFormat, type S
 export const REC709 = [0.2126, 0.7152, 0.0722] as const;
 export const REC601 = [0.299, 0.587, 0.114] as const;
 
-function rasterImage(format: ImageFormat, width: number, height: number, data: Float32Array, mask: Uint8Array): SkyImage {
+function rasterImage(
+  format: ImageFormat,
+  width: number,
+  height: number,
+  data: Float32Array,
+  mask: Uint8Array,
+): SkyImage {
   checkContent(data, mask);
   return {
     width,
@@ -84,13 +90,19 @@ export async function readTiff(bytes: Uint8Array, maxPixels: number): Promise<Sk
   checkDimensions(width, height, maxPixels);
   const channels = image.getSamplesPerPixel();
   if (channels > 4) {
-    throw new ImageReadError('bad-raster', `The TIFF image has ${channels} samples per pixel; 1 to 4 are supported`);
+    throw new ImageReadError(
+      'bad-raster',
+      `The TIFF image has ${channels} samples per pixel; 1 to 4 are supported`,
+    );
   }
   let raster: ArrayLike<number>;
   try {
     raster = (await image.readRasters({ interleave: true })) as unknown as ArrayLike<number>;
   } catch (error) {
-    throw new ImageReadError('bad-raster', `The TIFF pixel data cannot be decoded (${(error as Error).message})`);
+    throw new ImageReadError(
+      'bad-raster',
+      `The TIFF pixel data cannot be decoded (${(error as Error).message})`,
+    );
   }
   if (raster.length < width * height * channels) {
     throw new ImageReadError('truncated', `The TIFF pixel data are truncated`);
@@ -122,7 +134,11 @@ export function readJpegSize(bytes: Uint8Array): { width: number; height: number
 }
 
 /** PNG (8 or 16 bits) or JPEG as one luma plane. */
-export async function readPngOrJpeg(bytes: Uint8Array, format: 'png' | 'jpeg', maxPixels: number): Promise<SkyImage> {
+export async function readPngOrJpeg(
+  bytes: Uint8Array,
+  format: 'png' | 'jpeg',
+  maxPixels: number,
+): Promise<SkyImage> {
   const size = format === 'png' ? readPngHeader(bytes) : readJpegSize(bytes);
   if (!size) throw new ImageReadError('bad-raster', `The ${format.toUpperCase()} header cannot be read`);
   checkDimensions(size.width, size.height, maxPixels);
@@ -143,11 +159,17 @@ export async function readPngOrJpeg(bytes: Uint8Array, format: 'png' | 'jpeg', m
   try {
     bitmap = (await Jimp.read(Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength))).bitmap;
   } catch (error) {
-    throw new ImageReadError('bad-raster', `The ${format.toUpperCase()} image cannot be decoded (${(error as Error).message})`);
+    throw new ImageReadError(
+      'bad-raster',
+      `The ${format.toUpperCase()} image cannot be decoded (${(error as Error).message})`,
+    );
   }
   // jimp always gives 8-bit RGBA; a grey source has R = G = B, so the luma equals the grey value.
   const weights = format === 'jpeg' ? REC601 : REC709;
-  const hasAlpha = format === 'png' && png !== null && (png.colourType === 4 || png.colourType === 6 || png.colourType === 3);
+  const hasAlpha =
+    format === 'png' &&
+    png !== null &&
+    (png.colourType === 4 || png.colourType === 6 || png.colourType === 3);
   const { data, mask } = toPlane(
     bitmap.width,
     bitmap.height,

@@ -33,7 +33,10 @@ export function sniffFormat(bytes: Uint8Array): Sniffed {
   const b = (i: number): number => bytes[i] ?? -1;
   if (b(0) === 0x1f && b(1) === 0x8b) return 'gzip';
   if (looksLikeFits(bytes)) return 'fits';
-  if ((b(0) === 0x49 && b(1) === 0x49 && b(2) === 0x2a && b(3) === 0) || (b(0) === 0x4d && b(1) === 0x4d && b(2) === 0 && b(3) === 0x2a)) {
+  if (
+    (b(0) === 0x49 && b(1) === 0x49 && b(2) === 0x2a && b(3) === 0) ||
+    (b(0) === 0x4d && b(1) === 0x4d && b(2) === 0 && b(3) === 0x2a)
+  ) {
     return 'tiff';
   }
   if (b(0) === 0x89 && b(1) === 0x50 && b(2) === 0x4e && b(3) === 0x47) return 'png';
@@ -45,7 +48,8 @@ function checkOptions(options: ReadImageOptions): Required<Omit<ReadImageOptions
   const maxPixels = options.maxPixels ?? DEFAULT_LIMITS.maxPixels;
   const maxInflatedBytes = options.maxInflatedBytes ?? DEFAULT_LIMITS.maxInflatedBytes;
   if (!(maxPixels > 0)) throw new RangeError(`maxPixels must be positive, got ${maxPixels}`);
-  if (!(maxInflatedBytes > 0)) throw new RangeError(`maxInflatedBytes must be positive, got ${maxInflatedBytes}`);
+  if (!(maxInflatedBytes > 0))
+    throw new RangeError(`maxInflatedBytes must be positive, got ${maxInflatedBytes}`);
   return { maxPixels, maxInflatedBytes };
 }
 
@@ -66,7 +70,11 @@ export function gunzipCapped(bytes: Uint8Array, limit: number): Uint8Array {
 }
 
 /** Unwraps gzip (once) and tells the format of what is inside; refuses empty and unknown data. */
-function unwrap(bytes: Uint8Array, options: ReadImageOptions, limit: number): { bytes: Uint8Array; format: ImageFormat } {
+function unwrap(
+  bytes: Uint8Array,
+  options: ReadImageOptions,
+  limit: number,
+): { bytes: Uint8Array; format: ImageFormat } {
   if (bytes.length === 0) throw new ImageReadError('empty-file', 'The file is empty');
   let inner = bytes;
   let format = sniffFormat(bytes);
@@ -75,7 +83,10 @@ function unwrap(bytes: Uint8Array, options: ReadImageOptions, limit: number): { 
     if (inner.length === 0) throw new ImageReadError('empty-file', 'The gzip data inflate to an empty file');
     format = sniffFormat(inner);
     if (format === 'gzip') {
-      throw new ImageReadError('unknown-format', 'The gzip data hold another gzip stream; unpack it once and try again');
+      throw new ImageReadError(
+        'unknown-format',
+        'The gzip data hold another gzip stream; unpack it once and try again',
+      );
     }
   }
   if (format === 'unknown') {
@@ -83,7 +94,10 @@ function unwrap(bytes: Uint8Array, options: ReadImageOptions, limit: number): { 
     if (/\.(fits?|fts)(\.gz)?$/.test(name) || String.fromCharCode(...inner.subarray(0, 6)) === 'SIMPLE') {
       throw new ImageReadError('not-fits', 'This is not a FITS file: it does not begin with SIMPLE = T');
     }
-    throw new ImageReadError('unknown-format', 'The file is not a FITS, TIFF, PNG or JPEG image (its first bytes match none)');
+    throw new ImageReadError(
+      'unknown-format',
+      'The file is not a FITS, TIFF, PNG or JPEG image (its first bytes match none)',
+    );
   }
   return { bytes: inner, format };
 }

@@ -110,7 +110,8 @@ export function checkContent(data: Float32Array, mask: Uint8Array): void {
     valid++;
   }
   if (valid === 0) throw new ImageReadError('all-blank', 'Every pixel of the image is blank (BLANK or NaN)');
-  if (!varies) throw new ImageReadError('constant', `The image is constant: every valid pixel equals ${first}`);
+  if (!varies)
+    throw new ImageReadError('constant', `The image is constant: every valid pixel equals ${first}`);
 }
 
 /** Formats a byte count for messages, e.g. "2 GiB" or "1.5 MiB". */

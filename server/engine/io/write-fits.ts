@@ -46,7 +46,9 @@ export function carriedCards(header: readonly HeaderCard[]): HeaderCard[] {
     (card) =>
       card.value !== undefined &&
       card.value !== null &&
-      (WCS_KEYWORD.test(card.keyword) || BEAM_KEYWORD.test(card.keyword) || OBSERVATION_KEYWORD.test(card.keyword)),
+      (WCS_KEYWORD.test(card.keyword) ||
+        BEAM_KEYWORD.test(card.keyword) ||
+        OBSERVATION_KEYWORD.test(card.keyword)),
   );
 }
 
@@ -63,7 +65,8 @@ export function writeFits(image: WriteFitsImage, options: WriteFitsOptions = {})
     throw new RangeError(`mask has ${mask.length} values, expected ${data.length}`);
   }
   const input = options.header ?? [];
-  const unit = options.unit ?? input.find((card) => card.keyword === 'BUNIT' && typeof card.value === 'string')?.value;
+  const unit =
+    options.unit ?? input.find((card) => card.keyword === 'BUNIT' && typeof card.value === 'string')?.value;
   const cards: HeaderCard[] = [
     { keyword: 'SIMPLE', value: true, comment: 'conforms to the FITS Standard 4.0' },
     { keyword: 'BITPIX', value: -32, comment: 'IEEE 754 single precision' },

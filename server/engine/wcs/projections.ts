@@ -113,7 +113,9 @@ function sinProjection(xi: number, eta: number): Projection {
       const cosT = Math.cos(t);
       const oneMinus = 1 - Math.sin(t);
       // Beyond the horizon of the slant orthographic projection the point is not visible (paper II, sect. 5.1.5).
-      if (xi === 0 && eta === 0 ? theta < 0 : cosT * (xi * Math.sin(p) - eta * Math.cos(p)) + Math.sin(t) < 0) {
+      if (
+        xi === 0 && eta === 0 ? theta < 0 : cosT * (xi * Math.sin(p) - eta * Math.cos(p)) + Math.sin(t) < 0
+      ) {
         return [NaN, NaN];
       }
       return [R2D * (cosT * Math.sin(p) + xi * oneMinus), -R2D * (cosT * Math.cos(p) - eta * oneMinus)];

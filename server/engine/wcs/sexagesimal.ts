@@ -80,7 +80,9 @@ function fields(text: string, what: string): { negative: boolean; parts: number[
   }
   // Only the last field may carry a fraction.
   if (raw.slice(0, -1).some((f) => f.includes('.'))) {
-    throw new RangeError(`Cannot read '${text}': only the last field of a sexagesimal ${what} may have a fraction`);
+    throw new RangeError(
+      `Cannot read '${text}': only the last field of a sexagesimal ${what} may have a fraction`,
+    );
   }
   const parts = raw.map(Number);
   if ((parts[1] ?? 0) >= 60 || (parts[2] ?? 0) >= 60) {

@@ -17,7 +17,8 @@ import { makeProjection, PROJECTION_CODES, type Projection, type ProjectionCode 
 const D2R = Math.PI / 180;
 const R2D = 180 / Math.PI;
 
-export type WcsFrame = 'ICRS' | 'FK5' | 'FK4' | 'FK4-NO-E' | 'GAPPT' | 'galactic' | 'ecliptic' | 'supergalactic';
+export type WcsFrame =
+  'ICRS' | 'FK5' | 'FK4' | 'FK4-NO-E' | 'GAPPT' | 'galactic' | 'ecliptic' | 'supergalactic';
 
 export interface Wcs {
   /** True when axes 1 and 2 are a longitude/latitude pair with a supported projection. */
@@ -116,7 +117,17 @@ export function parseWcsWithWarnings(header: readonly HeaderCard[]): WcsParseRes
     return { wcs: null, warnings };
   }
   return {
-    wcs: celestialWcs({ ctype, crpix, crval, matrix, longitudeAxis: celestial.longitudeAxis, projection, pole, frame, equinox }),
+    wcs: celestialWcs({
+      ctype,
+      crpix,
+      crval,
+      matrix,
+      longitudeAxis: celestial.longitudeAxis,
+      projection,
+      pole,
+      frame,
+      equinox,
+    }),
     warnings,
   };
 }
@@ -174,7 +185,9 @@ function celestialAxes(ctype: [string, string], warnings: string[]): CelestialAx
         return 'invalid';
       }
       if (!(PROJECTION_CODES as readonly string[]).includes(code)) {
-        warnings.push(`The ${code} projection is not supported (TAN, SIN, ARC, STG, CAR are); the WCS was left out`);
+        warnings.push(
+          `The ${code} projection is not supported (TAN, SIN, ARC, STG, CAR are); the WCS was left out`,
+        );
         return 'invalid';
       }
       if (rest !== '') {
@@ -184,7 +197,9 @@ function celestialAxes(ctype: [string, string], warnings: string[]): CelestialAx
     }
   }
   if ([c1, c2].some((c) => /^(RA--|DEC-|GLON|GLAT|ELON|ELAT)/.test(c))) {
-    warnings.push(`CTYPE1 '${ctype[0]}' and CTYPE2 '${ctype[1]}' are not a celestial pair; the WCS was left out`);
+    warnings.push(
+      `CTYPE1 '${ctype[0]}' and CTYPE2 '${ctype[1]}' are not a celestial pair; the WCS was left out`,
+    );
     return 'invalid';
   }
   return null;
@@ -275,7 +290,10 @@ function normalise180(angle: number): number {
 function intermediate(
   crpix: readonly [number, number],
   m: Matrix,
-): { toIntermediate(x: number, y: number): [number, number]; toPixel(u: number, v: number): [number, number] } {
+): {
+  toIntermediate(x: number, y: number): [number, number];
+  toPixel(u: number, v: number): [number, number];
+} {
   const det = m[0] * m[3] - m[1] * m[2];
   const inv: Matrix = [m[3] / det, -m[1] / det, -m[2] / det, m[0] / det];
   return {
@@ -357,7 +375,7 @@ function celestialWcs(parts: CelestialParts): Wcs {
   const cosDp = Math.cos(pole.deltaP * D2R);
   const det = matrix[0] * matrix[3] - matrix[1] * matrix[2];
   // With the longitude on axis 2 the pixel-to-(lon, lat) map has one extra reflection.
-  const parity: 1 | -1 = (det < 0) === (longitudeAxis === 1) ? -1 : 1;
+  const parity: 1 | -1 = det < 0 === (longitudeAxis === 1) ? -1 : 1;
   return {
     isCelestial: true,
     projection: projection.code,

@@ -23,7 +23,10 @@ interface Case {
   comment: string[];
 }
 const folder = new URL('../../fixtures/astropy/fits/', import.meta.url);
-const fixture = JSON.parse(readFileSync(new URL('cases.json', folder), 'utf8')) as { astropy: string; cases: Case[] };
+const fixture = JSON.parse(readFileSync(new URL('cases.json', folder), 'utf8')) as {
+  astropy: string;
+  cases: Case[];
+};
 
 const ULP32 = 2 ** -23;
 

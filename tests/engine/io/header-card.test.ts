@@ -6,7 +6,14 @@
  * " / ", CONTINUE long strings (section 4.2.1.2), reals with a D exponent (section 4.2.4).
  */
 import { describe, expect, it } from 'vitest';
-import { formatCard, formatHeader, formatReal, padToBlock, parseCard, parseHeader } from '../../../server/engine/io/header-card';
+import {
+  formatCard,
+  formatHeader,
+  formatReal,
+  padToBlock,
+  parseCard,
+  parseHeader,
+} from '../../../server/engine/io/header-card';
 
 const card = (text: string): string => text.padEnd(80);
 
@@ -16,16 +23,24 @@ describe('formatCard', () => {
     expect(formatCard({ keyword: 'NAXIS1', value: 1024, comment: 'width' })).toEqual([
       card('NAXIS1  =                 1024 / width'),
     ]);
-    expect(formatCard({ keyword: 'CDELT1', value: -2.7777778e-4 })).toEqual([card('CDELT1  =       -0.00027777778')]);
-    expect(formatCard({ keyword: 'CRVAL2', value: 30, real: true })).toEqual([card('CRVAL2  =                 30.0')]);
-    expect(formatCard({ keyword: 'BLANKV', value: null, comment: 'undefined' })).toEqual([card('BLANKV  =  / undefined')]);
+    expect(formatCard({ keyword: 'CDELT1', value: -2.7777778e-4 })).toEqual([
+      card('CDELT1  =       -0.00027777778'),
+    ]);
+    expect(formatCard({ keyword: 'CRVAL2', value: 30, real: true })).toEqual([
+      card('CRVAL2  =                 30.0'),
+    ]);
+    expect(formatCard({ keyword: 'BLANKV', value: null, comment: 'undefined' })).toEqual([
+      card('BLANKV  =  / undefined'),
+    ]);
   });
   it('writes strings from column 11, padded to 8 characters, quotes doubled', () => {
     expect(formatCard({ keyword: 'CTYPE1', value: 'RA---TAN' })).toEqual([card("CTYPE1  = 'RA---TAN'")]);
     expect(formatCard({ keyword: 'BUNIT', value: 'K' })).toEqual([card("BUNIT   = 'K       '")]);
     // Closing quote in column 20: 8 characters between the quotes after doubling.
     expect(formatCard({ keyword: 'OBJECT', value: "Lyra's" })).toEqual([card("OBJECT  = 'Lyra''s '")]);
-    expect(formatCard({ keyword: 'AVOGADRO', value: 6.02214076e23 })).toEqual([card('AVOGADRO=       6.02214076E+23')]);
+    expect(formatCard({ keyword: 'AVOGADRO', value: 6.02214076e23 })).toEqual([
+      card('AVOGADRO=       6.02214076E+23'),
+    ]);
     expect(formatCard({ keyword: 'TINY', value: -1e-300 })).toEqual([card('TINY    =            -1.0E-300')]);
   });
   it('writes commentary cards and splits long text', () => {
@@ -40,8 +55,12 @@ describe('formatCard', () => {
     expect(records.every((r) => r.length === 80)).toBe(true);
   });
   it('refuses invalid keywords and non-finite reals', () => {
-    expect(() => formatCard({ keyword: 'TOO_LONG_KEY', value: 1 })).toThrow("Invalid FITS keyword 'TOO_LONG_KEY'");
-    expect(() => formatCard({ keyword: 'X', value: NaN })).toThrow('FITS header values must be finite, got NaN');
+    expect(() => formatCard({ keyword: 'TOO_LONG_KEY', value: 1 })).toThrow(
+      "Invalid FITS keyword 'TOO_LONG_KEY'",
+    );
+    expect(() => formatCard({ keyword: 'X', value: NaN })).toThrow(
+      'FITS header values must be finite, got NaN',
+    );
   });
   it('formats reals that read back as the same double', () => {
     for (const x of [0.1, -1e-300, 1 / 3, 6.02214076e23, 2 ** -30, 12345.678]) {
@@ -66,12 +85,22 @@ describe('parseCard', () => {
     });
     expect(parseCard(card("EMPTY   = ''"))).toEqual({ keyword: 'EMPTY', value: '' });
     expect(parseCard(card("LEAD    = '  x'"))).toEqual({ keyword: 'LEAD', value: '  x' }); // leading blanks kept
-    expect(parseCard(card('UNDEF   =   / nothing'))).toEqual({ keyword: 'UNDEF', value: null, comment: 'nothing' });
+    expect(parseCard(card('UNDEF   =   / nothing'))).toEqual({
+      keyword: 'UNDEF',
+      value: null,
+      comment: 'nothing',
+    });
     expect(parseCard(card('CPLX    = (1.0, -2.5)'))).toEqual({ keyword: 'CPLX', value: '(1.0, -2.5)' });
   });
   it('reads commentary cards as text, even with "= " in them', () => {
-    expect(parseCard(card('HISTORY = not a value'))).toEqual({ keyword: 'HISTORY', comment: '= not a value' });
-    expect(parseCard(card('        blank keyword text'))).toEqual({ keyword: '', comment: 'blank keyword text' });
+    expect(parseCard(card('HISTORY = not a value'))).toEqual({
+      keyword: 'HISTORY',
+      comment: '= not a value',
+    });
+    expect(parseCard(card('        blank keyword text'))).toEqual({
+      keyword: '',
+      comment: 'blank keyword text',
+    });
     expect(parseCard(card('NOVALUE  just text'))).toEqual({ keyword: 'NOVALUE', comment: ' just text' });
   });
   it('reads HIERARCH keywords', () => {
@@ -110,7 +139,10 @@ describe('parseHeader', () => {
   it('gives up without END, also within the block limit', () => {
     const noEnd = padToBlock(new TextEncoder().encode(card('SIMPLE  =                    T')), 32);
     expect(parseHeader(noEnd, 0)).toBeNull();
-    const header = formatHeader([{ keyword: 'SIMPLE', value: true }, ...Array.from({ length: 40 }, () => ({ keyword: 'COMMENT', comment: 'x' }))]);
+    const header = formatHeader([
+      { keyword: 'SIMPLE', value: true },
+      ...Array.from({ length: 40 }, () => ({ keyword: 'COMMENT', comment: 'x' })),
+    ]);
     expect(parseHeader(header, 0, 1)).toBeNull(); // END is in block 2
     expect(parseHeader(header, 0, 2)).not.toBeNull();
   });

@@ -19,7 +19,10 @@ interface Case {
   pixels: number[];
 }
 const folder = new URL('../../fixtures/astropy/raster/', import.meta.url);
-const fixture = JSON.parse(readFileSync(new URL('cases.json', folder), 'utf8')) as { pil: string; cases: Case[] };
+const fixture = JSON.parse(readFileSync(new URL('cases.json', folder), 'utf8')) as {
+  pil: string;
+  cases: Case[];
+};
 
 describe(`raster inputs against PIL ${fixture.pil}`, () => {
   it('finds the fixture files', () => expect(fixture.cases.length).toBe(9));
@@ -35,9 +38,10 @@ describe(`raster inputs against PIL ${fixture.pil}`, () => {
         const difference = Math.abs(image.data[i]! - expected);
         const tolerance = c.tolerance + 2 ** -24 * Math.abs(expected);
         worst = Math.max(worst, difference);
-        expect(difference, `${c.file} pixel ${i}: expected ${expected}, got ${image.data[i]}, tolerance ${tolerance}`).toBeLessThanOrEqual(
-          tolerance,
-        );
+        expect(
+          difference,
+          `${c.file} pixel ${i}: expected ${expected}, got ${image.data[i]}, tolerance ${tolerance}`,
+        ).toBeLessThanOrEqual(tolerance);
       }
       expect(image.mask.every((m) => m === 1)).toBe(true);
     });
@@ -75,7 +79,11 @@ describe('round trips through the libraries’ writers', () => {
     for (let y = 0; y < height; y++) {
       for (let x = 0; x < width; x++) {
         const v = (x * 7 + y * 3) % 256;
-        picture.setPixelColor(((v << 24) | (v << 16) | (v << 8) | (x === 0 && y === 0 ? 0 : 255)) >>> 0, x, y);
+        picture.setPixelColor(
+          ((v << 24) | (v << 16) | (v << 8) | (x === 0 && y === 0 ? 0 : 255)) >>> 0,
+          x,
+          y,
+        );
       }
     }
     const image = await readImageAsync(new Uint8Array(await picture.getBuffer('image/png')));
@@ -96,13 +104,20 @@ describe('size checks before decoding', () => {
     );
   });
   it('a JPEG is refused from its frame header with a small limit', async () => {
-    await expect(readImageAsync(readFileSync(new URL('rgb.jpg', folder)), { maxPixels: 100 })).rejects.toThrow(
-      'The image has 20×17 = 340 pixels, more than the limit of 100',
-    );
+    await expect(
+      readImageAsync(readFileSync(new URL('rgb.jpg', folder)), { maxPixels: 100 }),
+    ).rejects.toThrow('The image has 20×17 = 340 pixels, more than the limit of 100');
   });
   it('a TIFF smaller than 16 × 16 is refused', async () => {
-    const tiff = new Uint8Array(writeArrayBuffer(Float32Array.from({ length: 64 }, (_, i) => i), { width: 8, height: 8 }) as ArrayBuffer);
-    await expect(readImageAsync(tiff)).rejects.toThrow('The image is 8×8 pixels, smaller than the minimum of 16×16');
+    const tiff = new Uint8Array(
+      writeArrayBuffer(
+        Float32Array.from({ length: 64 }, (_, i) => i),
+        { width: 8, height: 8 },
+      ) as ArrayBuffer,
+    );
+    await expect(readImageAsync(tiff)).rejects.toThrow(
+      'The image is 8×8 pixels, smaller than the minimum of 16×16',
+    );
   });
   it('a corrupt PNG gets a message, not a crash', async () => {
     const bytes = new Uint8Array(readFileSync(new URL('png8-grey.png', folder))).slice(0, 60);

@@ -40,7 +40,10 @@ with fits.open(sys.argv[1]) as hdul:
     }))
 `;
 
-function astropyRead(path: string, points: number[][]): {
+function astropyRead(
+  path: string,
+  points: number[][],
+): {
   shape: number[];
   dtype: string;
   pixels: (number | null)[];
@@ -49,7 +52,9 @@ function astropyRead(path: string, points: number[][]): {
   world: [number, number][];
   naxis: number;
 } {
-  return JSON.parse(execFileSync(PYTHON, ['-c', READ_BACK, path, JSON.stringify(points)], { encoding: 'utf8' }));
+  return JSON.parse(
+    execFileSync(PYTHON, ['-c', READ_BACK, path, JSON.stringify(points)], { encoding: 'utf8' }),
+  );
 }
 
 describe('writeFits read back by astropy', () => {
@@ -93,12 +98,24 @@ describe('writeFits read back by astropy', () => {
     expect(back.pixels.length).toBe(340);
     for (let i = 0; i < 340; i++) {
       const expected = mask[i] === 0 ? null : input.data[i];
-      expect(back.pixels[i], `pixel ${i}: expected ${expected}, astropy read ${back.pixels[i]}`).toBe(expected);
+      expect(back.pixels[i], `pixel ${i}: expected ${expected}, astropy read ${back.pixels[i]}`).toBe(
+        expected,
+      );
     }
   });
 
   it('keeps the WCS of axes 1–2, drops axes 3–4, keeps beam and unit', () => {
-    for (const key of ['CTYPE1', 'CTYPE2', 'CRPIX1', 'CRPIX2', 'CRVAL1', 'CRVAL2', 'CDELT1', 'CDELT2', 'RADESYS']) {
+    for (const key of [
+      'CTYPE1',
+      'CTYPE2',
+      'CRPIX1',
+      'CRPIX2',
+      'CRVAL1',
+      'CRVAL2',
+      'CDELT1',
+      'CDELT2',
+      'RADESYS',
+    ]) {
       expect(back.cards[key], key).toEqual(input.header.find((c) => c.keyword === key)?.value);
     }
     expect(back.cards.CTYPE3).toBeUndefined();
@@ -156,7 +173,10 @@ describe('header cards with CONTINUE read back by astropy', () => {
         { width: 16, height: 16, data: Float32Array.from({ length: 256 }, (_, i) => i) },
         { cards: [{ keyword: 'QUOTES', value: text }] },
       );
-      expect(parseHeader(bytes, 0)!.cards.find((c) => c.keyword === 'QUOTES')?.value, `split near ${at}`).toBe(text);
+      expect(
+        parseHeader(bytes, 0)!.cards.find((c) => c.keyword === 'QUOTES')?.value,
+        `split near ${at}`,
+      ).toBe(text);
     }
   });
 });

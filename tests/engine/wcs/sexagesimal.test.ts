@@ -26,7 +26,8 @@ describe('formatRa', () => {
     expect(formatRa(83.63308, 1)).toBe('05:34:31.9');
     expect(formatRa(83.63308, 0)).toBe('05:34:32');
   });
-  it('refuses non-finite angles', () => expect(() => formatRa(NaN)).toThrow('Right ascension must be finite, got NaN'));
+  it('refuses non-finite angles', () =>
+    expect(() => formatRa(NaN)).toThrow('Right ascension must be finite, got NaN'));
 });
 
 describe('formatDec', () => {
@@ -57,7 +58,7 @@ describe('parseRa / parseDec', () => {
     expect(parseRa('12:30.5')).toBeCloseTo(187.625, 12); // 12 h 30.5 min = 12.508333 h
     expect(parseDec('-00:00:00.36')).toBeCloseTo(-0.0001, 14);
     expect(parseDec('+22 00 52.2')).toBeCloseTo(22.0145, 12);
-    expect(parseDec("-05d10'03\"")).toBeCloseTo(-(5 + 10 / 60 + 3 / 3600), 12);
+    expect(parseDec('-05d10\'03"')).toBeCloseTo(-(5 + 10 / 60 + 3 / 3600), 12);
     expect(parseDec('−45:30:00')).toBe(-45.5); // Unicode minus
   });
   it('refuses impossible fields with a message', () => {
@@ -75,14 +76,16 @@ describe('parseRa / parseDec', () => {
   });
   it('format → parse returns the angle within half of the last printed digit', () => {
     let seed = 12345;
-    const random = (): number => ((seed = (seed * 1103515245 + 12345) % 2 ** 31) / 2 ** 31);
+    const random = (): number => (seed = (seed * 1103515245 + 12345) % 2 ** 31) / 2 ** 31;
     for (let i = 0; i < 500; i++) {
       const ra = random() * 360;
       const dec = random() * 180 - 90;
       // 0.0005 s of time = 0.0075″ = 2.1e-6°; 0.005″ = 1.4e-6°.
       const raBack = parseRa(formatRa(ra));
       const raError = Math.min(Math.abs(raBack - ra), 360 - Math.abs(raBack - ra));
-      expect(raError, `RA ${ra}: ${formatRa(ra)} → ${raBack}`).toBeLessThanOrEqual((0.0005 * 15) / 3600 + 1e-12);
+      expect(raError, `RA ${ra}: ${formatRa(ra)} → ${raBack}`).toBeLessThanOrEqual(
+        (0.0005 * 15) / 3600 + 1e-12,
+      );
       expect(Math.abs(parseDec(formatDec(dec)) - dec), `Dec ${dec}: ${formatDec(dec)}`).toBeLessThanOrEqual(
         0.005 / 3600 + 1e-12,
       );

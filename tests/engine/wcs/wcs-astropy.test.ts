@@ -26,7 +26,7 @@ const fixture = JSON.parse(
 const WORLD_TOLERANCE_DEG = 1e-9;
 const PIXEL_TOLERANCE = 1e-7;
 
-export function cardsFrom(header: Record<string, string | number>): HeaderCard[] {
+function cardsFrom(header: Record<string, string | number>): HeaderCard[] {
   return Object.entries(header).map(([keyword, value]) => ({ keyword, value }));
 }
 
@@ -58,7 +58,10 @@ describe(`WCS against astropy ${fixture.astropy}`, () => {
         expect(wcs!.equinox).toBe(c.equinox);
         const scales = wcs!.pixelScaleDeg();
         for (let i = 0; i < 2; i++) {
-          expect(Math.abs(scales[i]! - c.pixelScalesDeg[i]!), `scale ${i}: ${scales[i]} vs ${c.pixelScalesDeg[i]}`).toBeLessThan(1e-15);
+          expect(
+            Math.abs(scales[i]! - c.pixelScalesDeg[i]!),
+            `scale ${i}: ${scales[i]} vs ${c.pixelScalesDeg[i]}`,
+          ).toBeLessThan(1e-15);
         }
       });
 
@@ -66,7 +69,10 @@ describe(`WCS against astropy ${fixture.astropy}`, () => {
         for (const { pixel, world } of c.pixelToWorld) {
           const got = wcs!.pixelToWorld(pixel[0], pixel[1]);
           if (world[0] === null || world[1] === null) {
-            expect(got.map(Number.isNaN), `${c.name} pixel ${pixel}: astropy gives NaN, got ${got}`).toEqual([true, true]);
+            expect(got.map(Number.isNaN), `${c.name} pixel ${pixel}: astropy gives NaN, got ${got}`).toEqual([
+              true,
+              true,
+            ]);
             continue;
           }
           const error = separationDeg(got, [world[0], world[1]]);
@@ -81,7 +87,10 @@ describe(`WCS against astropy ${fixture.astropy}`, () => {
         for (const { world, pixel } of c.worldToPixel) {
           const got = wcs!.worldToPixel(world[0], world[1]);
           if (pixel[0] === null || pixel[1] === null) {
-            expect(got.map(Number.isNaN), `${c.name} world ${world}: astropy gives NaN, got ${got}`).toEqual([true, true]);
+            expect(got.map(Number.isNaN), `${c.name} world ${world}: astropy gives NaN, got ${got}`).toEqual([
+              true,
+              true,
+            ]);
             continue;
           }
           const error = Math.hypot(got[0] - pixel[0], got[1] - pixel[1]);

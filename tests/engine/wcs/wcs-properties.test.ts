@@ -73,7 +73,11 @@ describe('linear transformation', () => {
         CD2_2: c2 * Math.cos(rho),
       }),
     )!;
-    for (const [x, y] of [[1, 1], [100, 80], [13.3, 71.9]] as const) {
+    for (const [x, y] of [
+      [1, 1],
+      [100, 80],
+      [13.3, 71.9],
+    ] as const) {
       const a = rotated.pixelToWorld(x, y);
       const b = cd.pixelToWorld(x, y);
       expect(Math.abs(a[0] - b[0]) + Math.abs(a[1] - b[1]), `pixel ${x},${y}`).toBeLessThan(1e-12);
@@ -88,14 +92,20 @@ describe('linear transformation', () => {
     expect(parseWcs(cards({ ...base, CDELT1: 1e-3, CDELT2: 1e-3 }))!.cdelt1Sign()).toBe(1);
     // Swapped axes (DEC first): north along +x and east along +y is the usual sky turned by 90° (east left
     // once north is turned up); east along −y is its mirror image.
-    const swapped = parseWcs(cards({ ...base, CTYPE1: 'DEC--TAN', CTYPE2: 'RA---TAN', CDELT1: 1e-3, CDELT2: 1e-3 }))!;
+    const swapped = parseWcs(
+      cards({ ...base, CTYPE1: 'DEC--TAN', CTYPE2: 'RA---TAN', CDELT1: 1e-3, CDELT2: 1e-3 }),
+    )!;
     expect(swapped.longitudeAxis).toBe(2);
     expect(swapped.cdelt1Sign()).toBe(-1);
-    const mirrored = parseWcs(cards({ ...base, CTYPE1: 'DEC--TAN', CTYPE2: 'RA---TAN', CDELT1: 1e-3, CDELT2: -1e-3 }))!;
+    const mirrored = parseWcs(
+      cards({ ...base, CTYPE1: 'DEC--TAN', CTYPE2: 'RA---TAN', CDELT1: 1e-3, CDELT2: -1e-3 }),
+    )!;
     expect(mirrored.cdelt1Sign()).toBe(1);
   });
   it('a header without celestial CTYPEs gives a linear WCS', () => {
-    const wcs = parseWcs(cards({ CTYPE1: 'X', CTYPE2: 'Y', CRPIX1: 1, CRPIX2: 1, CRVAL1: 10, CRVAL2: 20, CDELT1: 2, CDELT2: 3 }))!;
+    const wcs = parseWcs(
+      cards({ CTYPE1: 'X', CTYPE2: 'Y', CRPIX1: 1, CRPIX2: 1, CRVAL1: 10, CRVAL2: 20, CDELT1: 2, CDELT2: 3 }),
+    )!;
     expect(wcs.isCelestial).toBe(false);
     expect(wcs.pixelToWorld(3, 4)).toEqual([14, 29]);
     expect(wcs.worldToPixel(14, 29)).toEqual([3, 4]);

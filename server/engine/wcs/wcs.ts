@@ -9,9 +9,12 @@
  *   (default +90°) by eq. 8–10 and the special cases of section 2.4–2.5.
  *   The legacy CROTA2 becomes a PC matrix by paper II eq. 188–189.
  *   RADESYS defaults (paper II section 3.1): ICRS without EQUINOX; FK4 if EQUINOX < 1984; FK5 otherwise.
+ * - SIP distortion ('-SIP' after the projection code, A_p_q/B_p_q with optional AP/BP) is applied to the pixel
+ *   offsets before the matrix (sip.ts); other distortion conventions are reported in a warning and ignored.
  * Pixel coordinates are FITS 1-based: (1, 1) is the centre of the first pixel. Angles are in degrees.
  */
 import { cardNumber, cardString, type HeaderCard } from '../io/header-card';
+import { parseSip, type Sip } from './sip';
 import { makeProjection, PROJECTION_CODES, type Projection, type ProjectionCode } from './projections';
 
 const D2R = Math.PI / 180;
@@ -105,6 +108,14 @@ export function parseWcsWithWarnings(header: readonly HeaderCard[]): WcsParseRes
     warnings.push(`PV${latAxis}_m parameters are ignored for the ${celestial.projection} projection`);
   }
   const projection = makeProjection(celestial.projection, pv2);
+  let sip: Sip | null = null;
+  if (celestial.distortion === '-SIP') {
+    sip = parseSip(header);
+    if (!sip)
+      warnings.push('CTYPE names SIP distortion but A_ORDER/B_ORDER are missing; positions ignore it');
+  } else if (celestial.distortion !== '') {
+    warnings.push(`The distortion '${celestial.distortion}' in CTYPE is not supported; positions ignore it`);
+  }
   const lonAxisPv = celestial.longitudeAxis;
   const lonpole = cardNumber(header, 'LONPOLE') ?? cardNumber(header, `PV${lonAxisPv}_3`);
   const latpole = cardNumber(header, 'LATPOLE') ?? cardNumber(header, `PV${lonAxisPv}_4`);
@@ -124,6 +135,7 @@ export function parseWcsWithWarnings(header: readonly HeaderCard[]): WcsParseRes
       matrix,
       longitudeAxis: celestial.longitudeAxis,
       projection,
+      sip,
       pole,
       frame,
       equinox,
@@ -168,6 +180,8 @@ interface CelestialAxes {
   longitudeAxis: 1 | 2;
   projection: ProjectionCode;
   frame: WcsFrame | null;
+  /** What follows the projection code in CTYPE, e.g. '-SIP'; '' for none. */
+  distortion: string;
 }
 
 /** Which axis holds the longitude and which projection; null for non-celestial axes, 'invalid' when inconsistent. */
@@ -190,10 +204,7 @@ function celestialAxes(ctype: [string, string], warnings: string[]): CelestialAx
         );
         return 'invalid';
       }
-      if (rest !== '') {
-        warnings.push(`The distortion '${rest}' in CTYPE is not supported; positions ignore it`);
-      }
-      return { longitudeAxis, projection: code as ProjectionCode, frame: pair.frame };
+      return { longitudeAxis, projection: code as ProjectionCode, frame: pair.frame, distortion: rest };
     }
   }
   if ([c1, c2].some((c) => /^(RA--|DEC-|GLON|GLAT|ELON|ELAT)/.test(c))) {
@@ -286,10 +297,11 @@ function normalise180(angle: number): number {
   return a > 180 ? a - 360 : a;
 }
 
-/** Shared pixel ↔ intermediate arithmetic (paper I eq. 1–3). */
+/** Shared pixel ↔ intermediate arithmetic (paper I eq. 1–3), with SIP distortion of the offsets when given. */
 function intermediate(
   crpix: readonly [number, number],
   m: Matrix,
+  sip: Sip | null = null,
 ): {
   toIntermediate(x: number, y: number): [number, number];
   toPixel(u: number, v: number): [number, number];
@@ -298,12 +310,14 @@ function intermediate(
   const inv: Matrix = [m[3] / det, -m[1] / det, -m[2] / det, m[0] / det];
   return {
     toIntermediate(x, y) {
-      const dx = x - crpix[0];
-      const dy = y - crpix[1];
+      const [dx, dy] = sip ? sip.distort(x - crpix[0], y - crpix[1]) : [x - crpix[0], y - crpix[1]];
       return [m[0] * dx + m[1] * dy, m[2] * dx + m[3] * dy];
     },
     toPixel(u, v) {
-      return [inv[0] * u + inv[1] * v + crpix[0], inv[2] * u + inv[3] * v + crpix[1]];
+      const dx = inv[0] * u + inv[1] * v;
+      const dy = inv[2] * u + inv[3] * v;
+      const [px, py] = sip ? sip.undistort(dx, dy) : [dx, dy];
+      return [px + crpix[0], py + crpix[1]];
     },
   };
 }
@@ -362,6 +376,7 @@ interface CelestialParts {
   matrix: Matrix;
   longitudeAxis: 1 | 2;
   projection: Projection;
+  sip: Sip | null;
   pole: NativePole;
   frame: WcsFrame;
   equinox: number | null;
@@ -370,7 +385,7 @@ interface CelestialParts {
 /** Celestial WCS: pixel → intermediate (paper I) → native (projection) → celestial (paper II eq. 2 and 5). */
 function celestialWcs(parts: CelestialParts): Wcs {
   const { ctype, crpix, crval, matrix, longitudeAxis, projection, pole } = parts;
-  const lin = intermediate(crpix, matrix);
+  const lin = intermediate(crpix, matrix, parts.sip);
   const sinDp = Math.sin(pole.deltaP * D2R);
   const cosDp = Math.cos(pole.deltaP * D2R);
   const det = matrix[0] * matrix[3] - matrix[1] * matrix[2];

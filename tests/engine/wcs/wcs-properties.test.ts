@@ -31,7 +31,7 @@ function generator(seed: number): () => number {
 const ROUND_TRIP_TOLERANCE_PX = 1e-8;
 
 describe('pixel → world → pixel round trip', () => {
-  it('has headers to test', () => expect(fixture.cases.length).toBe(21));
+  it('has headers to test', () => expect(fixture.cases.length).toBe(23));
   for (const c of fixture.cases) {
     it(`${c.name}: 2000 random pixels within ${ROUND_TRIP_TOLERANCE_PX} px`, () => {
       const wcs = parseWcs(cards(c.header))!;
@@ -149,9 +149,13 @@ describe('headers without a usable WCS', () => {
       expect(parseWcsWithWarnings(cards(header))).toEqual({ wcs: null, warnings: [warning] });
     });
   }
-  it('SIP distortion is named in a warning, the linear TAN part is kept', () => {
-    const result = parseWcsWithWarnings(cards({ ...base, CTYPE1: 'RA---TAN-SIP', CTYPE2: 'DEC--TAN-SIP' }));
-    expect(result.wcs?.projection).toBe('TAN');
-    expect(result.warnings).toEqual(["The distortion '-SIP' in CTYPE is not supported; positions ignore it"]);
+  it('SIP named in CTYPE without its polynomials, and other distortions, are named in a warning', () => {
+    const sip = parseWcsWithWarnings(cards({ ...base, CTYPE1: 'RA---TAN-SIP', CTYPE2: 'DEC--TAN-SIP' }));
+    expect(sip.wcs?.projection).toBe('TAN');
+    expect(sip.warnings).toEqual([
+      'CTYPE names SIP distortion but A_ORDER/B_ORDER are missing; positions ignore it',
+    ]);
+    const tpv = parseWcsWithWarnings(cards({ ...base, CTYPE1: 'RA---TAN-TPV', CTYPE2: 'DEC--TAN-TPV' }));
+    expect(tpv.warnings).toEqual(["The distortion '-TPV' in CTYPE is not supported; positions ignore it"]);
   });
 });

@@ -123,6 +123,11 @@ export class SeparationModel {
     for (let i = 0; i < this.n; i++) this.amplitude[i] = Math.sqrt(power[i]!);
   }
 
+  /** The orthonormal Hartley transform on the padded grid (its own inverse). */
+  hartleyTransform(input: Float64Array, output: Float64Array): void {
+    this.hartley.transform(input, output);
+  }
+
   /** φ̂ = A ⊙ ξ: the Hartley coefficients of φ − μ. */
   phiHat(xi: Float64Array, out: Float64Array): Float64Array {
     for (let i = 0; i < this.n; i++) out[i] = this.amplitude[i]! * xi[i]!;

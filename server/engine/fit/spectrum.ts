@@ -18,7 +18,9 @@
  * w the likelihood's curvature per pixel in the model (1/σ² or 1/λ), K_k the PSF's transfer function. The
  * variance term keeps the power where the data say nothing (without it the estimate collapses there:
  * METHOD-NOTES). The binned ⟨φ_k²⟩ are fitted by least squares in log P against log(k² + k0²), weighted by the
- * number of modes per bin, giving a and γ (γ is kept within [slopeMin, slopeMax]).
+ * data's information per bin, Σ_k (1 − D_k/P_k): modes the data do not constrain return the prior (p_k ≈ P_k)
+ * and would only anchor the fit at the starting spectrum, so they get no weight. This gives a and γ (γ kept within
+ * [slopeMin, slopeMax]); the power law then extrapolates to the scales the data do not reach.
  */
 
 export interface SpectrumParameters {
@@ -39,6 +41,8 @@ export interface BinnedPower {
   mapPower: number[];
   /** Modes per bin. */
   modes: number[];
+  /** Σ over the bin's modes of the information fraction 1 − D_k/P_k (how much the data constrain them). */
+  information: number[];
 }
 
 /** |k| of every mode of a width × height grid (row-major, cycles per pixel, both signs folded). */
@@ -93,31 +97,34 @@ export function binnedPower(
   const sumMap = new Float64Array(nBins);
   const sumK = new Float64Array(nBins);
   const count = new Float64Array(nBins);
+  const info = new Float64Array(nBins);
   for (let i = 1; i < k.length; i++) {
     const ki = k[i]!;
     if (ki > kMax || !(prior[i]! > 0)) continue;
     const b = Math.min(nBins - 1, Math.floor((Math.log2(ki) - logMin) * binsPerOctave));
     const d = 1 / (1 / prior[i]! + transferPower[i]! * kappa);
+    info[b] = info[b]! + (1 - d / prior[i]!);
     const m = phiHat[i]! * phiHat[i]!;
     sum[b] = sum[b]! + m + d;
     sumMap[b] = sumMap[b]! + m;
     sumK[b] = sumK[b]! + ki;
     count[b] = count[b]! + 1;
   }
-  const out: BinnedPower = { k: [], power: [], mapPower: [], modes: [] };
+  const out: BinnedPower = { k: [], power: [], mapPower: [], modes: [], information: [] };
   for (let b = 0; b < nBins; b++) {
     if (count[b]! === 0) continue;
     out.k.push(sumK[b]! / count[b]!);
     out.power.push(sum[b]! / count[b]!);
     out.mapPower.push(sumMap[b]! / count[b]!);
     out.modes.push(count[b]!);
+    out.information.push(info[b]!);
   }
   return out;
 }
 
 /**
  * Weighted least-squares fit of log P = log a − (γ/2) log(k² + k0²) to binned power, γ clamped to
- * [slopeMin, slopeMax] (then a is refitted with γ fixed). Weights: the number of modes per bin.
+ * [slopeMin, slopeMax] (then a is refitted with γ fixed). Weights: the information per bin (see above).
  */
 export function fitPowerLaw(
   binned: BinnedPower,
@@ -127,7 +134,7 @@ export function fitPowerLaw(
 ): SpectrumParameters {
   const xs = binned.k.map((k) => -0.5 * Math.log(k * k + turnover * turnover));
   const ys = binned.power.map((p) => Math.log(p));
-  const ws = binned.modes;
+  const ws = binned.information;
   let sw = 0;
   let sx = 0;
   let sy = 0;

@@ -209,7 +209,53 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       spectrum.amplitude = options.spectrum?.amplitude ?? Math.max(varLog, 0.01) / mean;
     }
 
+    // Start for ξ: a Wiener-filtered log of the box-smoothed data, so the first stage begins near the large
+    // scales of the answer: ξ_k = A_k ĥ_k / (A_k² + ν), ĥ = H(φ0 − μ), ν the per-mode variance of the noise in
+    // φ0 (σ/((2r+1)·level))² for a (2r+1)² box (the standard Wiener filter for white noise).
     const xi = new Float64Array(n);
+    {
+      const r = Math.max(1, Math.round(fwhm.major));
+      const rowSum = new Float64Array(m);
+      const rowCount = new Float64Array(m);
+      for (let y = 0; y < height; y++) {
+        for (let x = 0; x < width; x++) {
+          let sum = 0;
+          let c = 0;
+          for (let xx = Math.max(0, x - r); xx <= Math.min(width - 1, x + r); xx++) {
+            const i = y * width + xx;
+            if (valid[i]) {
+              sum += data[i]!;
+              c++;
+            }
+          }
+          rowSum[y * width + x] = sum;
+          rowCount[y * width + x] = c;
+        }
+      }
+      const phi0 = new Float64Array(n);
+      phi0.fill(mu);
+      const floorLevel = Math.max(0.3 * sigmaTypical, 0.1 * level);
+      for (let y = 0; y < height; y++) {
+        for (let x = 0; x < width; x++) {
+          let sum = 0;
+          let c = 0;
+          for (let yy = Math.max(0, y - r); yy <= Math.min(height - 1, y + r); yy++) {
+            sum += rowSum[yy * width + x]!;
+            c += rowCount[yy * width + x]!;
+          }
+          if (c > 0) phi0[y * pw + x] = Math.log(Math.max(sum / c - pedestal, floorLevel));
+        }
+      }
+      for (let i = 0; i < n; i++) phi0[i] = phi0[i]! - mu;
+      const hat = new Float64Array(n);
+      model.hartleyTransform(phi0, hat);
+      const nu = (sigmaTypical / ((2 * r + 1) * level)) ** 2;
+      powerLawSpectrum(k, spectrum, kc, power);
+      for (let i = 0; i < n; i++) {
+        const a = Math.sqrt(power[i]!);
+        xi[i] = a > 0 ? (a * hat[i]!) / (a * a + nu) : 0;
+      }
+    }
     const tau = new Float64Array(m).fill(Math.log(pedestal));
     let evaluations = 0;
     let iterations = 0;
@@ -219,14 +265,19 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     const seedsPerRound: number[] = [];
     const weight = new Float64Array(m);
     const phiHat = new Float64Array(n);
-    let binned: BinnedPower = { k: [], power: [], mapPower: [], modes: [] };
+    let binned: BinnedPower = { k: [], power: [], mapPower: [], modes: [], information: [] };
 
     const setSpectrum = (taper: number | null): void => {
       powerLawSpectrum(k, spectrum, taper, power);
       model.setSpectrum(power);
     };
 
-    const runStage = (stage: string, blocks: StageBlocks): void => {
+    const runStage = (
+      stage: string,
+      blocks: StageBlocks,
+      tolerance: number,
+      stageIterations: number,
+    ): void => {
       // preconditioner from the current state
       model.evaluate(xi, mu, tau, blocks, null, null);
       model.curvature(weight);
@@ -282,9 +333,9 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
         },
         new Float64Array(d.length),
         {
-          maxIterations,
-          maxEvaluations: 4 * maxIterations,
-          absoluteDecrease,
+          maxIterations: stageIterations,
+          maxEvaluations: 3 * stageIterations,
+          absoluteDecrease: tolerance,
           stallIterations: 3,
           gradientTolerance: 1e-6,
           signal,
@@ -331,9 +382,9 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
           for (let b = 0; b < binned.k.length; b++) {
             const kb = binned.k[b]!;
             sx +=
-              binned.modes[b]! *
+              binned.information[b]! *
               (Math.log(binned.power[b]!) + (spectrum.slope / 2) * Math.log(kb * kb + turnover ** 2));
-            sww += binned.modes[b]!;
+            sww += binned.information[b]!;
           }
           spectrum.amplitude = Math.exp(sx / sww);
         }
@@ -343,10 +394,12 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     };
 
     // Stage 1: diffuse only, tapered spectrum.
+    // The early stages only prepare the start of the next one: looser tolerances and shorter budgets.
+    const early = Math.max(1, Math.round(maxIterations / 3));
     setSpectrum(kc);
-    runStage('diffuse', { diffuse: true, compact: false });
+    runStage('diffuse', { diffuse: true, compact: false }, 10 * absoluteDecrease, early);
     updateSpectrum(kc, kc);
-    runStage('diffuse', { diffuse: true, compact: false });
+    runStage('diffuse', { diffuse: true, compact: false }, 10 * absoluteDecrease, early);
     // Stage 2: full spectrum.
     updateSpectrum(kc, null);
     const residual = new Float64Array(m);
@@ -375,10 +428,10 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
         const u = Math.exp(model.clipTau(tau[seed.index]!));
         tau[seed.index] = model.clipTau(Math.log(u + seed.flux));
       }
-      runStage(`joint-${round}`, { diffuse: true, compact: true });
+      runStage(`joint-${round}`, { diffuse: true, compact: true }, 5 * absoluteDecrease, early);
       updateSpectrum(0.5, null);
     }
-    runStage('final', { diffuse: true, compact: true });
+    runStage('final', { diffuse: true, compact: true }, absoluteDecrease, maxIterations);
 
     // Components on the image grid.
     model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);

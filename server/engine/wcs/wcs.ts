@@ -92,6 +92,23 @@ export function parseWcsWithWarnings(header: readonly HeaderCard[]): WcsParseRes
   if (celestial === 'invalid') return { wcs: null, warnings };
   if (celestial === null) return { wcs: linearWcs(ctype, crpix, crval, matrix), warnings };
 
+  // Celestial axes are in degrees unless CUNIT says otherwise (paper I section 2.1.4); CRVAL and the matrix
+  // rows are in that unit, so both are converted.
+  for (const i of [0, 1] as const) {
+    const unit = cardString(header, `CUNIT${i + 1}`)?.trim();
+    if (!unit) continue;
+    const factor = ANGLE_UNIT_DEG[unit];
+    if (factor === undefined) {
+      warnings.push(
+        `CUNIT${i + 1} = '${unit}' is not an angle unit (deg, arcmin, arcsec, mas, rad); the WCS was left out`,
+      );
+      return { wcs: null, warnings };
+    }
+    crval[i] *= factor;
+    const row = i === 0 ? ([0, 1] as const) : ([2, 3] as const);
+    for (const k of row) matrix[k] *= factor;
+  }
+
   for (const key of ['PV1_1', 'PV1_2']) {
     if (cardNumber(header, key.replace('1_', `${celestial.longitudeAxis}_`)) !== undefined) {
       warnings.push(`${key} (a moved fiducial point) is not supported; the WCS was left out`);
@@ -145,6 +162,15 @@ export function parseWcsWithWarnings(header: readonly HeaderCard[]): WcsParseRes
 }
 
 type Matrix = [number, number, number, number];
+
+/** Degrees per unit for the angle units of paper I, table 2 (with the usual prefixes). */
+const ANGLE_UNIT_DEG: Record<string, number> = {
+  deg: 1,
+  arcmin: 1 / 60,
+  arcsec: 1 / 3600,
+  mas: 1 / 3.6e6,
+  rad: 180 / Math.PI,
+};
 
 /** CD matrix from CD_ij, or CDELT·PC_ij, or CDELT with CROTA2 (paper II eq. 189: CROTA to CD). */
 function linearMatrix(header: readonly HeaderCard[], warnings: string[]): Matrix | null {

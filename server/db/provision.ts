@@ -19,9 +19,9 @@ export async function ensureAppDatabase(superuserUrl: string, app: AppDatabase):
   let created = false;
   try {
     const role = await client.query('select 1 from pg_roles where rolname = $1', [app.role]);
-    // The password goes in as a literal quoted by PostgreSQL itself (format %L), never concatenated.
-    const passwordLiteral = (await client.query<{ literal: string }>('select format($1, $2) as literal', ['%L', app.password]))
-      .rows[0]?.literal;
+    // The password goes in as a literal quoted by PostgreSQL itself (quote_literal), never concatenated raw.
+    const passwordLiteral = (await client.query<{ literal: string }>('select quote_literal($1::text) as literal', [app.password])).rows[0]
+      ?.literal;
     if (!passwordLiteral) throw new Error('Could not quote the database password.');
     if (role.rowCount === 0) {
       await client.query(`create role ${app.role} login password ${passwordLiteral}`);

@@ -95,6 +95,7 @@ export function createApiClient(options: ApiClientOptions = {}) {
   const baseUrl = options.baseUrl ?? '';
   const doFetch = (input: string, init: RequestInit) => (options.fetch ?? globalThis.fetch)(input, init);
   let csrfToken: Promise<string> | null = null;
+  let onSessionEnded: (() => void) | null = null;
 
   async function send(method: Method, url: string, body: unknown): Promise<Response> {
     const headers: Record<string, string> = { accept: 'application/json' };
@@ -142,6 +143,11 @@ export function createApiClient(options: ApiClientOptions = {}) {
         response = await send(method, url, opts.body);
         if (response.ok) return parse(response, opts.schema, method, path);
         error = await errorFrom(response);
+      }
+      // A session that ended elsewhere (expired, account disabled); "who is signed in?" and sign-in itself
+      // answer 401 as part of their normal job.
+      if (error.code === 'unauthenticated' && path !== '/api/auth/me' && path !== '/api/auth/login') {
+        onSessionEnded?.();
       }
       throw error;
     }
@@ -195,11 +201,17 @@ export function createApiClient(options: ApiClientOptions = {}) {
     csrfToken = null;
   }
 
+  /** Called when the server says the session has ended, so the app can send the user to sign-in. */
+  function whenSessionEnds(handler: (() => void) | null): void {
+    onSessionEnded = handler;
+  }
+
   const id = (value: number) => encodeURIComponent(String(value));
 
   return {
     request,
     resetCsrf,
+    whenSessionEnds,
     config: {
       public: () => request('GET', '/api/config/public', { schema: publicConfigSchema }),
       health: () => request('GET', '/api/health', { schema: healthSchema }),

@@ -19,14 +19,26 @@ export function messageOf(error: unknown): string {
   return 'Something went wrong. Please try again.';
 }
 
+/** Dismissers of the error notifications still on screen. */
+const openErrors = new Set<() => void>();
+
 export function notifyError(error: unknown): void {
-  Notify.create({
+  let dismiss: () => void = () => undefined;
+  dismiss = Notify.create({
     type: 'negative',
     message: messageOf(error),
     position: 'top',
     timeout: 6000,
     actions: [{ icon: 'close', color: 'white', round: true, 'aria-label': 'Dismiss' }],
+    onDismiss: () => openErrors.delete(dismiss),
   });
+  openErrors.add(dismiss);
+}
+
+/** Clears earlier failures once they no longer apply (e.g. a refused sign-in after a successful one). */
+export function dismissErrors(): void {
+  for (const dismiss of [...openErrors]) dismiss();
+  openErrors.clear();
 }
 
 export function notifySuccess(message: string): void {

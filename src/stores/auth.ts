@@ -12,7 +12,7 @@ import type {
 } from '@shared/auth';
 import type { PublicConfig } from '@shared/health';
 import { api, ApiError } from '@/boot/api';
-import { notifyError } from '@/boot/notify';
+import { dismissErrors, notifyError } from '@/boot/notify';
 
 export const useAuthStore = defineStore('auth', () => {
   const user = ref<User | null>(null);
@@ -54,6 +54,7 @@ export const useAuthStore = defineStore('auth', () => {
     try {
       user.value = (await api.auth.login(body)).user;
       api.resetCsrf();
+      dismissErrors();
       return true;
     } catch (error) {
       notifyError(error);
@@ -65,6 +66,7 @@ export const useAuthStore = defineStore('auth', () => {
     try {
       user.value = (await api.auth.signup(body)).user;
       api.resetCsrf();
+      dismissErrors();
       return true;
     } catch (error) {
       notifyError(error);

@@ -101,3 +101,22 @@ describe('API client', () => {
     expect(failure.message).toContain('502');
   });
 });
+
+describe('API client and an ended session', () => {
+  it('reports a 401 from an ordinary route, but not from the sign-in check or sign-in itself', async () => {
+    mockApi({
+      'GET /api/projects': apiError(401, 'unauthenticated', 'Your session has ended. Sign in again.'),
+      'GET /api/auth/me': apiError(401, 'unauthenticated', 'Not signed in.'),
+      'POST /api/auth/login': apiError(401, 'wrong_credentials', 'Wrong e-mail or password.'),
+    });
+    const client = createApiClient();
+    let ended = 0;
+    client.whenSessionEnds(() => ended++);
+    await client.auth.me().catch(() => undefined);
+    await client.auth.login({ email: 'a@b.c', password: 'x' }).catch(() => undefined);
+    expect(ended).toBe(0);
+    const failure = (await client.projects.list().catch((error: unknown) => error)) as ApiError;
+    expect(failure.message).toBe('Your session has ended. Sign in again.');
+    expect(ended).toBe(1);
+  });
+});

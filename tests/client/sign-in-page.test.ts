@@ -49,6 +49,30 @@ describe('SignInPage', () => {
     api.expectNoUnexpectedCalls();
   });
 
+  it('clears the refusal once the next attempt succeeds', async () => {
+    let attempt = 0;
+    mockApi({
+      'GET /api/config/public': config,
+      'POST /api/auth/login': () =>
+        ++attempt === 1
+          ? apiError(401, 'wrong_credentials', 'Wrong e-mail or password.')
+          : { body: { user: makeUser() } },
+    });
+    const { wrapper, router } = await mountPage(SignInPage, { path: '/signin' });
+    await wrapper.find('input[type="email"]').setValue('vega@aws.example');
+    await wrapper.find('input[type="password"]').setValue('not it');
+    await wrapper.find('form').trigger('submit');
+    await settle();
+    expect(notifications().join(' ')).toContain('Wrong e-mail or password.');
+
+    await wrapper.find('input[type="password"]').setValue('correct horse');
+    await wrapper.find('form').trigger('submit');
+    await settle();
+    await new Promise((resolve) => setTimeout(resolve, 400)); // the notification's leave transition
+    expect(router.currentRoute.value.name).toBe('projects');
+    expect(notifications().join(' ')).not.toContain('Wrong e-mail or password.');
+  });
+
   it('never redirects to another site after sign-in', async () => {
     mockApi({ 'GET /api/config/public': config, 'POST /api/auth/login': { body: { user: makeUser() } } });
     const { wrapper, router } = await mountPage(SignInPage, { path: '/signin?redirect=//evil.example/x' });

@@ -8,8 +8,8 @@
  * (0, 0) and wrap-around (see kernelFromCentredStamp); the convolver does not normalise it.
  */
 import { checkLength } from './check-size';
-import { createRealFft2d } from './real-fft-2d';
-import type { RealFft2d, RealFft2dOptions } from './types';
+import { transformFor } from './real-fft-2d';
+import type { RealFft2d, TransformOptions } from './types';
 
 export interface Convolver {
   readonly width: number;
@@ -26,17 +26,17 @@ export function createConvolver(
   width: number,
   height: number,
   kernel: Float64Array,
-  options: RealFft2dOptions = {},
+  options: TransformOptions = {},
 ): Convolver {
-  const fft = createRealFft2d(width, height, options);
+  const fft = transformFor(width, height, options);
   checkLength(kernel, width * height, 'convolution kernel');
   for (let i = 0; i < kernel.length; i++) {
     if (!Number.isFinite(kernel[i]!)) {
-      fft.dispose();
+      if (options.fft === undefined) fft.dispose();
       throw new RangeError(`convolution kernel has a non-finite value at pixel ${i}`);
     }
   }
-  return new FftConvolver(fft, kernel);
+  return new FftConvolver(fft, kernel, options.fft === undefined);
 }
 
 class FftConvolver implements Convolver {
@@ -51,6 +51,7 @@ class FftConvolver implements Convolver {
   constructor(
     private readonly fft: RealFft2d,
     kernel: Float64Array,
+    private readonly ownsFft: boolean,
   ) {
     this.width = fft.width;
     this.height = fft.height;
@@ -86,7 +87,7 @@ class FftConvolver implements Convolver {
   }
 
   dispose(): void {
-    this.fft.dispose();
+    if (this.ownsFft) this.fft.dispose();
   }
 }
 

@@ -7,8 +7,8 @@
  * the gradient pass of φ = H(A ⊙ ξ) is the same call. Output layout = input layout (row-major, x fastest).
  */
 import { checkLength } from './check-size';
-import { createRealFft2d } from './real-fft-2d';
-import type { RealFft2d, RealFft2dOptions } from './types';
+import { transformFor } from './real-fft-2d';
+import type { RealFft2d, TransformOptions } from './types';
 
 export interface Hartley2d {
   readonly width: number;
@@ -19,9 +19,9 @@ export interface Hartley2d {
   dispose(): void;
 }
 
-export function createHartley2d(width: number, height: number, options: RealFft2dOptions = {}): Hartley2d {
-  const fft = createRealFft2d(width, height, options);
-  return new Hartley2dFromFft(fft);
+export function createHartley2d(width: number, height: number, options: TransformOptions = {}): Hartley2d {
+  const fft = transformFor(width, height, options);
+  return new Hartley2dFromFft(fft, options.fft === undefined);
 }
 
 class Hartley2dFromFft implements Hartley2d {
@@ -31,7 +31,10 @@ class Hartley2dFromFft implements Hartley2d {
   private readonly re: Float64Array;
   private readonly im: Float64Array;
 
-  constructor(private readonly fft: RealFft2d) {
+  constructor(
+    private readonly fft: RealFft2d,
+    private readonly ownsFft: boolean,
+  ) {
     this.width = fft.width;
     this.height = fft.height;
     this.implementation = fft.implementation;
@@ -62,6 +65,6 @@ class Hartley2dFromFft implements Hartley2d {
   }
 
   dispose(): void {
-    this.fft.dispose();
+    if (this.ownsFft) this.fft.dispose();
   }
 }

@@ -2,49 +2,119 @@
  * 2-D real FFT computed in float32 by PFFFT (WASM, SIMD), float64 at the interface (layout and normalisation in
  * types.ts). Width must be a multiple of 32 and height a multiple of 16, both 2,3,5-smooth (goodFftSize gives
  * such sizes). The image mean is taken out before rounding to float32 and restored exactly (pffft-core.ts).
+ * With threads = 2 a persistent worker (fft-thread.ts) takes the lower rows and the right-hand columns.
  */
 import { checkLength } from './check-size';
+import {
+  COMMAND_FORWARD_COLUMNS,
+  COMMAND_FORWARD_ROWS,
+  COMMAND_INVERSE_COLUMNS,
+  COMMAND_INVERSE_ROWS,
+  FftThread,
+} from './fft-thread';
 import { PffftCore } from './pffft-core';
 import { pffftComplexLength, pffftRealLength } from './pffft-module';
+import { copyColumns, sharedFloat64 } from './shared-buffers';
 import type { RealFft2d } from './types';
 
 export class RealFft2dFloat32 implements RealFft2d {
   readonly spectrumWidth: number;
-  readonly implementation = 'pffft-wasm-float32';
+  readonly implementation: string;
   private readonly core: PffftCore;
   private readonly rows: Float32Array;
+  private readonly thread: FftThread | null = null;
+  private readonly rowSplit: number;
+  private readonly columnSplit: number;
+  private readonly image: Float64Array = new Float64Array(0);
+  private readonly re: Float64Array = new Float64Array(0);
+  private readonly im: Float64Array = new Float64Array(0);
 
   constructor(
     readonly width: number,
     readonly height: number,
+    threads: 1 | 2 = 1,
   ) {
     checkFloat32Size(width, height);
     this.core = new PffftCore(width, height);
     this.spectrumWidth = this.core.spectrumWidth;
-    this.rows = new Float32Array(width * height);
+    this.rowSplit = Math.floor(height / 2);
+    this.columnSplit = Math.min(this.spectrumWidth, 16 * Math.ceil(this.spectrumWidth / 32));
+    this.implementation = `pffft-wasm-float32${threads === 2 ? '-2-threads' : ''}`;
+    if (threads === 2) {
+      const rows = new SharedArrayBuffer(width * height * Float32Array.BYTES_PER_ELEMENT);
+      this.rows = new Float32Array(rows);
+      const [image, re, im] = [
+        sharedFloat64(width * height),
+        sharedFloat64(this.spectrumWidth * height),
+        sharedFloat64(this.spectrumWidth * height),
+      ];
+      this.image = new Float64Array(image);
+      this.re = new Float64Array(re);
+      this.im = new Float64Array(im);
+      this.thread = new FftThread({
+        kind: 'float32',
+        width,
+        height,
+        rowSplit: this.rowSplit,
+        columnSplit: this.columnSplit,
+        buffers: { rows, image, re, im },
+      });
+    } else {
+      this.rows = new Float32Array(width * height);
+    }
   }
 
   forward(input: Float64Array, outRe: Float64Array, outIm: Float64Array): void {
-    const { width, height, spectrumWidth } = this;
+    const { width, height, spectrumWidth, core, rows, thread } = this;
     checkLength(input, width * height, 'FFT input');
     checkLength(outRe, spectrumWidth * height, 'FFT output (real part)');
     checkLength(outIm, spectrumWidth * height, 'FFT output (imaginary part)');
     const shift = mean(input);
-    this.core.forwardRows(input, this.rows, 0, height, shift);
-    this.core.forwardColumns(this.rows, outRe, outIm, 0, spectrumWidth, shift * width * height);
+    const dc = shift * width * height;
+    if (thread === null || !thread.ready) {
+      core.forwardRows(input, rows, 0, height, shift);
+      core.forwardColumns(rows, outRe, outIm, 0, spectrumWidth, dc);
+      return;
+    }
+    const { rowSplit, columnSplit } = this;
+    this.image.set(input.subarray(rowSplit * width), rowSplit * width);
+    thread.params[0] = shift;
+    thread.start(COMMAND_FORWARD_ROWS);
+    core.forwardRows(input, rows, 0, rowSplit, shift);
+    thread.finish();
+    thread.start(COMMAND_FORWARD_COLUMNS);
+    core.forwardColumns(rows, outRe, outIm, 0, columnSplit, dc);
+    thread.finish();
+    copyColumns(this.re, this.im, outRe, outIm, spectrumWidth, height, columnSplit, spectrumWidth);
   }
 
   inverse(inRe: Float64Array, inIm: Float64Array, output: Float64Array): void {
-    const { width, height, spectrumWidth } = this;
+    const { width, height, spectrumWidth, core, rows, thread } = this;
     checkLength(inRe, spectrumWidth * height, 'inverse FFT input (real part)');
     checkLength(inIm, spectrumWidth * height, 'inverse FFT input (imaginary part)');
     checkLength(output, width * height, 'inverse FFT output');
     const n = width * height;
-    this.core.inverseColumns(inRe, inIm, this.rows, 0, spectrumWidth, 0);
-    this.core.inverseRows(this.rows, output, 0, height, 1 / n, inRe[0]! / n);
+    const shift = inRe[0]! / n;
+    if (thread === null || !thread.ready) {
+      core.inverseColumns(inRe, inIm, rows, 0, spectrumWidth, 0);
+      core.inverseRows(rows, output, 0, height, 1 / n, shift);
+      return;
+    }
+    const { rowSplit, columnSplit } = this;
+    copyColumns(inRe, inIm, this.re, this.im, spectrumWidth, height, columnSplit, spectrumWidth);
+    thread.start(COMMAND_INVERSE_COLUMNS);
+    core.inverseColumns(inRe, inIm, rows, 0, columnSplit, 0);
+    thread.finish();
+    thread.params[0] = shift;
+    thread.params[1] = 1 / n;
+    thread.start(COMMAND_INVERSE_ROWS);
+    core.inverseRows(rows, output, 0, rowSplit, 1 / n, shift);
+    thread.finish();
+    output.set(this.image.subarray(rowSplit * width), rowSplit * width);
   }
 
   dispose(): void {
+    this.thread?.dispose();
     this.core.dispose();
   }
 }
@@ -63,7 +133,7 @@ export function checkFloat32Size(width: number, height: number): void {
   }
 }
 
-/** Mean of the finite values (0 when there are none), the shift taken out before rounding to float32. */
+/** Mean of the values (0 when it is not finite), the shift taken out before rounding to float32. */
 export function mean(values: Float64Array): number {
   let sum = 0;
   for (let i = 0; i < values.length; i++) sum += values[i]!;

@@ -7,9 +7,18 @@
  * Columns: complex transforms of length height over blocks of adjacent half-spectrum columns, so every stage
  * streams through contiguous memory. The inverse runs the same steps backwards; it rebuilds the full row
  * spectrum from Hermitian symmetry and unpacks two real rows from one complex inverse.
+ * With threads = 2 a persistent worker (fft-thread.ts) takes the lower rows and the right-hand columns.
  */
 import { checkFftSize, checkLength } from './check-size';
 import { complexForward, createComplexPlan, type ComplexPlan } from './complex-plan';
+import {
+  COMMAND_FORWARD_COLUMNS,
+  COMMAND_FORWARD_ROWS,
+  COMMAND_INVERSE_COLUMNS,
+  COMMAND_INVERSE_ROWS,
+  FftThread,
+} from './fft-thread';
+import { copyColumns, sharedFloat64 } from './shared-buffers';
 import type { RealFft2d } from './types';
 
 /** Columns per block in the column pass: 32 columns × height complex values stay in the L2 cache. */
@@ -17,7 +26,7 @@ const COLUMN_BLOCK = 32;
 
 export class RealFft2dFloat64 implements RealFft2d {
   readonly spectrumWidth: number;
-  readonly implementation = 'typescript-float64';
+  readonly implementation: string;
   private readonly rowPlan: ComplexPlan;
   private readonly columnPlan: ComplexPlan;
   private readonly zRe: Float64Array;
@@ -28,10 +37,15 @@ export class RealFft2dFloat64 implements RealFft2d {
   private readonly columnWorkIm: Float64Array;
   private readonly spectrumRe: Float64Array;
   private readonly spectrumIm: Float64Array;
+  private readonly thread: FftThread | null = null;
+  private readonly rowSplit: number;
+  private readonly columnSplit: number;
+  private readonly image: Float64Array = new Float64Array(0);
 
   constructor(
     readonly width: number,
     readonly height: number,
+    threads: 1 | 2 = 1,
   ) {
     checkFftSize(width, height);
     this.spectrumWidth = Math.floor(width / 2) + 1;
@@ -43,8 +57,29 @@ export class RealFft2dFloat64 implements RealFft2d {
     this.rowWorkIm = new Float64Array(width);
     this.columnWorkRe = new Float64Array(height * COLUMN_BLOCK);
     this.columnWorkIm = new Float64Array(height * COLUMN_BLOCK);
-    this.spectrumRe = new Float64Array(this.spectrumWidth * height);
-    this.spectrumIm = new Float64Array(this.spectrumWidth * height);
+    this.implementation = `typescript-float64${threads === 2 ? '-2-threads' : ''}`;
+    // Row pairs stay on one thread: the split is even.
+    this.rowSplit = 2 * Math.floor(height / 4);
+    this.columnSplit = Math.ceil(this.spectrumWidth / 2);
+    if (threads === 2) {
+      const [image, re, im] = [width * height, this.spectrumWidth * height, this.spectrumWidth * height].map(
+        sharedFloat64,
+      );
+      this.image = new Float64Array(image!);
+      this.spectrumRe = new Float64Array(re!);
+      this.spectrumIm = new Float64Array(im!);
+      this.thread = new FftThread({
+        kind: 'float64',
+        width,
+        height,
+        rowSplit: this.rowSplit,
+        columnSplit: this.columnSplit,
+        buffers: { image: image!, re: re!, im: im! },
+      });
+    } else {
+      this.spectrumRe = new Float64Array(this.spectrumWidth * height);
+      this.spectrumIm = new Float64Array(this.spectrumWidth * height);
+    }
   }
 
   forward(input: Float64Array, outRe: Float64Array, outIm: Float64Array): void {
@@ -52,8 +87,20 @@ export class RealFft2dFloat64 implements RealFft2d {
     checkLength(input, width * height, 'FFT input');
     checkLength(outRe, spectrumWidth * height, 'FFT output (real part)');
     checkLength(outIm, spectrumWidth * height, 'FFT output (imaginary part)');
-    this.forwardRows(input, outRe, outIm, 0, height);
-    this.columns(outRe, outIm, outRe, outIm, 0, spectrumWidth, false);
+    const { thread, rowSplit, columnSplit, spectrumRe: re, spectrumIm: im } = this;
+    if (thread === null || !thread.ready) {
+      this.forwardRows(input, outRe, outIm, 0, height);
+      this.columns(outRe, outIm, outRe, outIm, 0, spectrumWidth, false);
+      return;
+    }
+    this.image.set(input.subarray(rowSplit * width), rowSplit * width);
+    thread.start(COMMAND_FORWARD_ROWS);
+    this.forwardRows(input, re, im, 0, rowSplit);
+    thread.finish();
+    thread.start(COMMAND_FORWARD_COLUMNS);
+    this.columns(re, im, outRe, outIm, 0, columnSplit, false);
+    thread.finish();
+    copyColumns(re, im, outRe, outIm, spectrumWidth, height, columnSplit, spectrumWidth);
   }
 
   inverse(inRe: Float64Array, inIm: Float64Array, output: Float64Array): void {
@@ -61,11 +108,25 @@ export class RealFft2dFloat64 implements RealFft2d {
     checkLength(inRe, spectrumWidth * height, 'inverse FFT input (real part)');
     checkLength(inIm, spectrumWidth * height, 'inverse FFT input (imaginary part)');
     checkLength(output, width * height, 'inverse FFT output');
-    this.columns(inRe, inIm, this.spectrumRe, this.spectrumIm, 0, spectrumWidth, true);
-    this.inverseRows(this.spectrumRe, this.spectrumIm, output, 0, height);
+    const { thread, rowSplit, columnSplit, spectrumRe: re, spectrumIm: im } = this;
+    if (thread === null || !thread.ready) {
+      this.columns(inRe, inIm, re, im, 0, spectrumWidth, true);
+      this.inverseRows(re, im, output, 0, height);
+      return;
+    }
+    copyColumns(inRe, inIm, re, im, spectrumWidth, height, columnSplit, spectrumWidth);
+    thread.start(COMMAND_INVERSE_COLUMNS);
+    this.columns(inRe, inIm, re, im, 0, columnSplit, true);
+    thread.finish();
+    thread.start(COMMAND_INVERSE_ROWS);
+    this.inverseRows(re, im, output, 0, rowSplit);
+    thread.finish();
+    output.set(this.image.subarray(rowSplit * width), rowSplit * width);
   }
 
-  dispose(): void {}
+  dispose(): void {
+    this.thread?.dispose();
+  }
 
   /** Row transforms of rows [y0, y1) (y0 even) of `input` into the half spectrum rows of out. */
   forwardRows(input: Float64Array, outRe: Float64Array, outIm: Float64Array, y0: number, y1: number): void {

@@ -40,3 +40,12 @@ export interface RealFft2dOptions {
    */
   threads?: 1 | 2;
 }
+
+export interface TransformOptions extends RealFft2dOptions {
+  /**
+   * An existing RealFft2d of the same size to run on (its worker and buffers are reused; it is not disposed
+   * with this object). Lets a Hartley transform and a convolver share one worker. `precision` and `threads`
+   * are then ignored.
+   */
+  fft?: RealFft2d;
+}

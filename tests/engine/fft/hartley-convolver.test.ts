@@ -188,3 +188,30 @@ describe('createConvolver (float64)', () => {
     );
   });
 });
+
+describe('sharing one RealFft2d', () => {
+  it('a Hartley transform and a convolver on one transform give the same results as on their own', async () => {
+    const { createRealFft2d } = await import('../../../server/engine/fft');
+    const width = 24,
+      height = 18,
+      n = width * height;
+    const fft = createRealFft2d(width, height);
+    const kernel = randomArray(n, 40);
+    const x = randomArray(n, 41);
+    const own = { h: new Float64Array(n), c: new Float64Array(n) };
+    const shared = { h: new Float64Array(n), c: new Float64Array(n) };
+    createHartley2d(width, height).transform(x, own.h);
+    createConvolver(width, height, kernel).apply(x, own.c);
+    const h = createHartley2d(width, height, { fft });
+    const c = createConvolver(width, height, kernel, { fft });
+    h.transform(x, shared.h);
+    c.apply(x, shared.c);
+    h.dispose();
+    c.dispose();
+    expect(shared).toEqual(own);
+    // Disposing the users leaves the shared transform working.
+    const re = new Float64Array(fft.spectrumWidth * height);
+    expect(() => fft.forward(x, re, new Float64Array(re.length))).not.toThrow();
+    expect(() => createHartley2d(width, height + 1, { fft })).toThrow('shared FFT is 24×18, expected 24×19');
+  });
+});

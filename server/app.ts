@@ -83,7 +83,7 @@ export function createApp(ctx: AppContext, options: AppOptions = {}): SkysieveAp
   api.get('/api/openapi.json', (_req, res) => {
     res.json(openApiDocument);
   });
-  mountRoutes(api, routes);
+  mountRoutes(api, routes, authentication.checkCsrf);
   api.use('/api', apiNotFound);
   app.use(api);
 

@@ -51,6 +51,8 @@ export const clientIp = (req: { ip?: string | undefined }): string | null => req
 export interface Authentication {
   /** Everything to mount before the /api routes, in order. */
   middleware: RequestHandler[];
+  /** CSRF check for cookie sessions; mounted per route after the access guard (so signed-out callers get 401). */
+  checkCsrf: RequestHandler;
   passport: InstanceType<typeof Passport>;
   /** Issues (or reuses) the CSRF token of the caller's session. */
   issueCsrfToken(req: Request, res: Response): string;
@@ -136,7 +138,8 @@ export function createAuthentication(ctx: AppContext): Authentication {
   };
 
   return {
-    middleware: [parseCookies, tokenOrSession, passport.initialize(), checkCsrf],
+    middleware: [parseCookies, tokenOrSession, passport.initialize()],
+    checkCsrf,
     passport,
     issueCsrfToken(req, res) {
       // Mark the session so it is stored (and its id stays stable) even before sign-in.

@@ -64,11 +64,13 @@ const guards: Record<Access, RequestHandler[]> = {
   admin: [requireAdmin],
 };
 
-export function mountRoutes(router: Router, routes: AnyRouteSpec[]): void {
+/** Mounts each route: rate limits → access guard → CSRF → params/query → loaders → body → handler. */
+export function mountRoutes(router: Router, routes: AnyRouteSpec[], checkCsrf: RequestHandler): void {
   for (const spec of routes) {
     const handlers: RequestHandler[] = [
       ...(spec.before ?? []),
       ...guards[spec.access],
+      checkCsrf,
       validate({ params: spec.params, query: spec.query }),
       ...(spec.load ?? []),
       validate({ body: spec.body }),

@@ -6,6 +6,7 @@
  * Pixel tolerance: 1 float32 ulp of the value (the reader rounds the exact double to float32 once).
  */
 import { readFileSync } from 'node:fs';
+import { gzipSync } from 'node:zlib';
 import { describe, expect, it } from 'vitest';
 import { cardNumber, cardString, findCard } from '../../../server/engine/io/header-card';
 import { readImage } from '../../../server/engine/io/read-image';
@@ -80,6 +81,24 @@ describe(`FITS reader against astropy ${fixture.astropy}`, () => {
     expect(() => readImage(bytes, { plane: 4 })).toThrow(
       'Plane 4 does not exist: the cube has planes 1–3 along axis 3 (FREQ)',
     );
+  });
+
+  it('degenerate4d.fits: the squeezed planes count as one (plane 1 reads, plane 2 is refused)', () => {
+    const bytes = readFileSync(new URL('degenerate4d.fits', folder));
+    expect(readImage(bytes, { plane: 1 }).plane).toBeNull();
+    expect(() => readImage(bytes, { plane: 2 })).toThrow(
+      'Plane 2 does not exist: this image has a single plane',
+    );
+  });
+
+  it('bitpix-32.fits.gz: two concatenated gzip members read as one stream', () => {
+    const gz = readFileSync(new URL('bitpix-32.fits.gz', folder));
+    const plain = readImage(readFileSync(new URL('bitpix-32.fits', folder)));
+    // Split the plain file in two and gzip each half (RFC 1952 section 2.2: a file may hold several members).
+    const raw = readFileSync(new URL('bitpix-32.fits', folder));
+    const twoMembers = Buffer.concat([gzipSync(raw.subarray(0, 3000)), gzipSync(raw.subarray(3000))]);
+    expect(readImage(twoMembers).data).toEqual(plain.data);
+    expect(readImage(gz).data).toEqual(plain.data);
   });
 
   it('extension-heap.fits: tables with a heap (PCOUNT = 172) are skipped; INHERIT = T takes primary cards', () => {

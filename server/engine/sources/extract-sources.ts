@@ -267,14 +267,25 @@ export function extractSources(input: ExtractSourcesInput): CatalogueSource[] {
     }
     return out;
   };
+  // Prune below the threshold one source per footprint at a time (the weakest), refitting its neighbours in
+  // between: a source the MAP fit split over two close seeds then comes back whole instead of losing both halves
+  // to their anti-correlated errors.
   let measured = finalise();
-  let kept = measured.filter((m) => m.detection >= options.threshold && Number.isFinite(m.errors.fluxErr));
-  if (kept.length < measured.length) {
-    rebuild(kept.map((m) => m.source));
-    sweep(2);
+  for (let round = 0; round < 20; round++) {
+    const weakest = new Map<number, (typeof measured)[number]>();
+    for (const m of measured) {
+      if (m.detection >= options.threshold && Number.isFinite(m.errors.fluxErr)) continue;
+      const current = weakest.get(m.source.footprint);
+      if (!current || m.detection < current.detection) weakest.set(m.source.footprint, m);
+    }
+    if (weakest.size === 0) break;
+    const dropped = new Set([...weakest.values()].map((m) => m.source));
+    rebuild(sources.filter((s) => !dropped.has(s)));
+    const touched = sources.filter((s) => weakest.has(s.footprint));
+    for (let pass = 0; pass < 2; pass++) for (const s of touched) refitSource(image, model, s, fitOptions);
     measured = finalise();
-    kept = measured.filter((m) => m.detection >= options.threshold && Number.isFinite(m.errors.fluxErr));
   }
+  const kept = measured.filter((m) => m.detection >= options.threshold && Number.isFinite(m.errors.fluxErr));
 
   const perFootprint = new Map<number, number>();
   for (const m of kept) perFootprint.set(m.source.footprint, (perFootprint.get(m.source.footprint) ?? 0) + 1);

@@ -414,6 +414,24 @@ function celestialWcs(parts: CelestialParts): Wcs {
   const lin = intermediate(crpix, matrix, parts.sip);
   const sinDp = Math.sin(pole.deltaP * D2R);
   const cosDp = Math.cos(pole.deltaP * D2R);
+  /**
+   * The spherical rotation of paper II: eq. 2 (native → celestial, from φ_p to α_p) and eq. 5 (celestial →
+   * native, from α_p to φ_p) have the same form,
+   *   out = outPole + arg(sin b cos δ_p − cos b sin δ_p cos(a − inPole), −cos b sin(a − inPole)),
+   *   latitude = asin(sin b sin δ_p + cos b cos δ_p cos(a − inPole)).
+   */
+  const rotate = (a: number, b: number, inPole: number, outPole: number): [number, number] => {
+    const bRad = b * D2R;
+    const da = (a - inPole) * D2R;
+    const sinB = Math.sin(bRad);
+    const cosB = Math.cos(bRad);
+    const ey = -cosB * Math.sin(da);
+    const ex = sinB * cosDp - cosB * sinDp * Math.cos(da);
+    return [
+      outPole + Math.atan2(ey, ex) * R2D,
+      latitudeFrom(sinB * sinDp + cosB * cosDp * Math.cos(da), ex, ey),
+    ];
+  };
   const det = matrix[0] * matrix[3] - matrix[1] * matrix[2];
   // With the longitude on axis 2 the pixel-to-(lon, lat) map has one extra reflection.
   const parity: 1 | -1 = det < 0 === (longitudeAxis === 1) ? -1 : 1;
@@ -432,27 +450,11 @@ function celestialWcs(parts: CelestialParts): Wcs {
       const [px, py] = longitudeAxis === 1 ? [u, v] : [v, u];
       const [phi, theta] = projection.toNative(px, py);
       if (!Number.isFinite(phi) || !Number.isFinite(theta)) return [NaN, NaN];
-      // Paper II eq. 2.
-      const t = theta * D2R;
-      const dphi = (phi - pole.phiP) * D2R;
-      const sinT = Math.sin(t);
-      const cosT = Math.cos(t);
-      const ey = -cosT * Math.sin(dphi);
-      const ex = sinT * cosDp - cosT * sinDp * Math.cos(dphi);
-      const lon = pole.alphaP + Math.atan2(ey, ex) * R2D;
-      const lat = latitudeFrom(sinT * sinDp + cosT * cosDp * Math.cos(dphi), ex, ey);
+      const [lon, lat] = rotate(phi, theta, pole.phiP, pole.alphaP);
       return [normalise360(lon), lat];
     },
     worldToPixel(lon, lat) {
-      // Paper II eq. 5.
-      const d = lat * D2R;
-      const da = (lon - pole.alphaP) * D2R;
-      const sinD = Math.sin(d);
-      const cosD = Math.cos(d);
-      const ey = -cosD * Math.sin(da);
-      const ex = sinD * cosDp - cosD * sinDp * Math.cos(da);
-      const phi = pole.phiP + Math.atan2(ey, ex) * R2D;
-      const theta = latitudeFrom(sinD * sinDp + cosD * cosDp * Math.cos(da), ex, ey);
+      const [phi, theta] = rotate(lon, lat, pole.alphaP, pole.phiP);
       // Keep φ near φ0 so that CAR maps the reference longitude to the reference pixel.
       const [px, py] = projection.fromNative(projection.phi0 + normalise180(phi - projection.phi0), theta);
       if (!Number.isFinite(px) || !Number.isFinite(py)) return [NaN, NaN];

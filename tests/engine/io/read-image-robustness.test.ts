@@ -8,19 +8,9 @@ import { readFileSync } from 'node:fs';
 import { gzipSync } from 'node:zlib';
 import { describe, expect, it } from 'vitest';
 import { ImageReadError, readImage, readImageAsync } from '../../../server/engine/io/read-image';
+import { seededRandom } from '../fft/reference'; // Mulberry32, shared with the FFT tests
 
 const folder = new URL('../../fixtures/astropy/', import.meta.url);
-
-function generator(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 function outcome(read: () => unknown): string {
   try {
@@ -52,7 +42,7 @@ describe('damaged files are refused, never crash', () => {
   for (const source of sources) {
     it(`${source}: 400 damaged copies`, () => {
       const original = new Uint8Array(readFileSync(new URL(source, folder)));
-      const random = generator(source.length * 7919);
+      const random = seededRandom(source.length * 7919);
       const seen = new Map<string, number>();
       for (let trial = 0; trial < 400; trial++) {
         let bytes = original.slice();
@@ -79,7 +69,7 @@ describe('damaged files are refused, never crash', () => {
   }
 
   it('damaged PNG, JPEG and TIFF files are refused through readImageAsync, never crash', async () => {
-    const random = generator(99);
+    const random = seededRandom(99);
     for (const source of [
       'raster/png16-filters.png',
       'raster/png8-rgb.png',

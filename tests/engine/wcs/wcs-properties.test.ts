@@ -8,6 +8,7 @@ import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import type { HeaderCard } from '../../../server/engine/io/header-card';
 import { parseWcs, parseWcsWithWarnings } from '../../../server/engine/wcs/wcs';
+import { seededRandom } from '../fft/reference'; // Mulberry32, shared with the FFT tests
 
 const fixture = JSON.parse(
   readFileSync(new URL('../../fixtures/astropy/wcs/cases.json', import.meta.url), 'utf8'),
@@ -16,18 +17,6 @@ const fixture = JSON.parse(
 const cards = (header: Record<string, string | number>): HeaderCard[] =>
   Object.entries(header).map(([keyword, value]) => ({ keyword, value }));
 
-/** Deterministic uniform numbers in [0, 1) (mulberry32). */
-function generator(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
 const ROUND_TRIP_TOLERANCE_PX = 1e-8;
 
 describe('pixel → world → pixel round trip', () => {
@@ -35,7 +24,7 @@ describe('pixel → world → pixel round trip', () => {
   for (const c of fixture.cases) {
     it(`${c.name}: 2000 random pixels within ${ROUND_TRIP_TOLERANCE_PX} px`, () => {
       const wcs = parseWcs(cards(c.header))!;
-      const random = generator(7);
+      const random = seededRandom(7);
       const width = c.header.NAXIS1 as number;
       const height = c.header.NAXIS2 as number;
       let checked = 0;

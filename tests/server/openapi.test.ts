@@ -1,0 +1,87 @@
+// @vitest-environment node
+import request from 'supertest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+
+import { createApp } from '../../server/app';
+import { startTestApp, type TestApp } from '../support/test-app';
+
+let t: TestApp;
+beforeAll(async () => {
+  t = await startTestApp();
+});
+afterAll(async () => {
+  await t.close();
+});
+
+interface OpenApiDocument {
+  openapi: string;
+  info: { title: string; version: string };
+  paths: Record<string, Record<string, { responses: Record<string, unknown>; requestBody?: unknown }>>;
+}
+
+// The routes of the API contract (shared/API.md), written out by hand so a route lost from the
+// declarations fails here.
+const contract = [
+  'get /api/health',
+  'get /api/config/public',
+  'get /api/openapi.json',
+  'get /api/auth/csrf',
+  'post /api/auth/signup',
+  'post /api/auth/login',
+  'post /api/auth/logout',
+  'get /api/auth/me',
+  'patch /api/auth/me',
+  'post /api/auth/password',
+  'post /api/auth/password-reset/request',
+  'post /api/auth/password-reset/confirm',
+  'get /api/auth/invitations/{token}',
+  'get /api/tokens',
+  'post /api/tokens',
+  'delete /api/tokens/{id}',
+  'get /api/projects',
+  'post /api/projects',
+  'get /api/projects/{id}',
+  'patch /api/projects/{id}',
+  'delete /api/projects/{id}',
+  'get /api/projects/{id}/members',
+  'post /api/projects/{id}/members',
+  'patch /api/projects/{id}/members/{userId}',
+  'delete /api/projects/{id}/members/{userId}',
+  'post /api/projects/{id}/leave',
+  'get /api/projects/{id}/invitations',
+  'delete /api/projects/{id}/invitations/{invitationId}',
+  'get /api/admin/users',
+  'patch /api/admin/users/{id}',
+  'get /api/admin/audit',
+  'get /api/admin/mail',
+  'get /api/admin/mail/{id}',
+];
+
+describe('OpenAPI document', () => {
+  it('is served at /api/openapi.json and lists every route of the contract and every mounted route', async () => {
+    const response = await request(t.app).get('/api/openapi.json').expect(200);
+    const document = response.body as OpenApiDocument;
+    expect(document.openapi).toBe('3.0.3');
+    expect(document.info).toEqual(expect.objectContaining({ title: 'Skysieve API', version: t.ctx.version }));
+    const listed = Object.entries(document.paths).flatMap(([path, methods]) =>
+      Object.keys(methods).map((method) => `${method} ${path}`),
+    );
+    expect(listed.sort()).toEqual(expect.arrayContaining(contract));
+    const built = createApp(t.ctx, { clientDirectory: '/nonexistent' });
+    try {
+      const mounted = built.routes.map((route) => `${route.method} ${route.path.replace(/:(\w+)/g, '{$1}')}`);
+      expect(listed.sort()).toEqual([...mounted, 'get /api/openapi.json'].sort());
+    } finally {
+      await built.close();
+    }
+  });
+  it('describes bodies and responses from the zod schemas', async () => {
+    const document = (await request(t.app).get('/api/openapi.json')).body as OpenApiDocument;
+    const signup = document.paths['/api/auth/signup']?.post;
+    expect(JSON.stringify(signup?.requestBody)).toContain('"displayName"');
+    expect(Object.keys(signup?.responses ?? {})).toEqual(expect.arrayContaining(['201', '400', '403', '409', '429']));
+    const addMember = document.paths['/api/projects/{id}/members']?.post;
+    expect(Object.keys(addMember?.responses ?? {})).toEqual(expect.arrayContaining(['201', '202', '401', '403', '404', '409']));
+    expect(JSON.stringify(document.paths['/api/projects/{id}']?.get?.responses['200'])).toContain('"members"');
+  });
+});

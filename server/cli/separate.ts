@@ -67,14 +67,14 @@ async function readSettingsFile(path: string): Promise<Record<string, unknown>> 
   let text: string;
   try {
     text = await readFile(path, 'utf8');
-  } catch {
-    throw new Error(`Cannot read the settings file ${path}`);
+  } catch (error) {
+    throw new Error(`Cannot read the settings file ${path}`, { cause: error });
   }
   let parsed: unknown;
   try {
     parsed = JSON.parse(text);
   } catch (error) {
-    throw new Error(`Settings file ${path} is not valid JSON: ${oneLine(error)}`);
+    throw new Error(`Settings file ${path} is not valid JSON: ${oneLine(error)}`, { cause: error });
   }
   if (parsed === null || typeof parsed !== 'object' || Array.isArray(parsed)) {
     throw new Error(`Settings file ${path} must hold a JSON object`);

@@ -157,7 +157,7 @@ export function tableToFitsBintable(table: CatalogueTable): Uint8Array {
   const view = new DataView(data.buffer);
   table.rows.forEach((row, r) => {
     const base = r * rowBytes;
-    layouts.forEach(({ column, width, offset }, c) => {
+    layouts.forEach(({ column, offset }, c) => {
       const value = row[c] ?? null;
       const at = base + offset;
       if (column.datatype === 'double') view.setFloat64(at, value === null ? NaN : (value as number), false);

@@ -1,3 +1,4 @@
+/* eslint-disable @typescript-eslint/no-explicit-any -- astropy's JSON is checked field by field in the tests */
 /**
  * Runs the committed astropy read-back script (tests/fixtures/astropy/catalogue/read_back.py) with Debian's
  * /usr/bin/python3 and returns what astropy read, as parsed JSON.
@@ -9,7 +10,6 @@ export const READ_BACK_SCRIPT = fileURLToPath(
   new URL('../fixtures/astropy/catalogue/read_back.py', import.meta.url),
 );
 
-// eslint-disable-next-line @typescript-eslint/no-explicit-any -- the JSON shape is checked field by field in the tests
 export function readBackWithAstropy(files: {
   csv?: string;
   votable?: string;

@@ -1,6 +1,7 @@
 // @vitest-environment node
 import normal from '@stdlib/stats-base-dists-normal';
 import { describe, expect, it } from 'vitest';
+import { expectClose as close } from './close-to';
 import { psfFromFwhm, psfStamp, psfStampHalfSize } from '../../server/engine/psf';
 import {
   completenessByLevel,
@@ -13,13 +14,6 @@ import {
   wilsonInterval,
 } from '../../server/catalogue/completeness';
 import type { InjectedSource, InjectionOutcome } from '../../server/catalogue/completeness';
-
-const close = (actual: number | null | undefined, expected: number, tolerance: number, what: string) => {
-  const message = `${what}: expected ${expected}, actual ${actual}, difference ${Math.abs((actual ?? NaN) - expected)}, tolerance ${tolerance}`;
-  expect(actual !== null && actual !== undefined && Math.abs(actual - expected) <= tolerance, message).toBe(
-    true,
-  );
-};
 
 describe('Wilson score interval (Wilson 1927, JASA 22, 209)', () => {
   it('reproduces the published 95 % worked values', () => {

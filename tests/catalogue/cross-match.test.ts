@@ -3,6 +3,7 @@ import { mkdtempSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
+import { expectClose as close } from './close-to';
 import {
   crossMatchPixels,
   crossMatchSky,
@@ -17,12 +18,6 @@ import { readBackWithAstropy } from './astropy-read-back';
 import { sampleProvenance } from './sample-sources';
 
 const DEG = Math.PI / 180;
-const close = (actual: number | null | undefined, expected: number, tolerance: number, what: string) => {
-  const message = `${what}: expected ${expected}, actual ${actual}, difference ${Math.abs((actual ?? NaN) - expected)}, tolerance ${tolerance}`;
-  expect(actual !== null && actual !== undefined && Math.abs(actual - expected) <= tolerance, message).toBe(
-    true,
-  );
-};
 
 describe('haversine great-circle distance (Sinnott 1984, Sky & Telescope 68, 159)', () => {
   it('gives the exact distances of hand-worked cases', () => {

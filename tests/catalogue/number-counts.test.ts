@@ -1,19 +1,13 @@
 // @vitest-environment node
 import poisson from '@stdlib/stats-base-dists-poisson';
 import { describe, expect, it } from 'vitest';
+import { expectClose as close } from './close-to';
 import {
   DEG2_PER_SR,
   numberCounts,
   poissonLowerLimit,
   poissonUpperLimit,
 } from '../../server/catalogue/number-counts';
-
-const close = (actual: number | null | undefined, expected: number, tolerance: number, what: string) => {
-  const message = `${what}: expected ${expected}, actual ${actual}, difference ${Math.abs((actual ?? NaN) - expected)}, tolerance ${tolerance}`;
-  expect(actual !== null && actual !== undefined && Math.abs(actual - expected) <= tolerance, message).toBe(
-    true,
-  );
-};
 
 /** Exact Poisson limits by bisection on @stdlib's Poisson CDF (the reference), one-sided 84.13 % = Φ(1). */
 const CONFIDENCE = 0.8413447460685429;

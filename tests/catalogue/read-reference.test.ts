@@ -2,6 +2,7 @@
 import { readdirSync, readFileSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
+import { expectClose as close } from './close-to';
 import { readReferenceCatalogue, ReferenceCatalogueError } from '../../server/catalogue/read-reference';
 import { sourcesToTable } from '../../server/catalogue/catalogue-table';
 import { tableToVotable } from '../../server/catalogue/export-votable';
@@ -19,13 +20,6 @@ const cases = JSON.parse(readFileSync(`${fixtureDir}cases.json`, 'utf8')) as {
   versions: { astropy: string };
   sexagesimal_csv: { file: string; rows: FixtureRow[] };
   votable: { file: string; rows: FixtureRow[] };
-};
-
-const close = (actual: number | null | undefined, expected: number, tolerance: number, what: string) => {
-  const message = `${what}: expected ${expected}, actual ${actual}, difference ${Math.abs((actual ?? NaN) - expected)}, tolerance ${tolerance}`;
-  expect(actual !== null && actual !== undefined && Math.abs(actual - expected) <= tolerance, message).toBe(
-    true,
-  );
 };
 
 describe('reference catalogues written by astropy (tests/fixtures/astropy/catalogue/make.py)', () => {

@@ -26,7 +26,7 @@ export const sampleSources: CatalogueSource[] = [
     flux: 0.012345678901234,
     fluxErr: 1.5e-5,
     fluxDensity: 0.0010345,
-    fluxDensityErr: 1.2570000000000001e-6,
+    fluxDensityErr: 1.257e-6,
     snr: 823.0452,
     significance: null,
     flags: [],

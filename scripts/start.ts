@@ -95,7 +95,9 @@ if (databaseUrl) {
 /** Stops the local cluster; an adopted one (already running before) only once this start has served. */
 async function stopDatabase(options: { evenIfAdopted: boolean } = { evenIfAdopted: false }): Promise<void> {
   if (cluster && (cluster.startedHere || options.evenIfAdopted)) {
-    await cluster.stop().catch((error: unknown) => console.error('[start] Stopping PostgreSQL failed:', error));
+    await cluster
+      .stop()
+      .catch((error: unknown) => console.error('[start] Stopping PostgreSQL failed:', error));
     console.log('[start] PostgreSQL stopped.');
   }
 }
@@ -106,16 +108,20 @@ try {
   if (prepared.seed) {
     const { createdUsers, createdProject, createdMemberships } = prepared.seed;
     const changed = createdUsers + createdMemberships + (createdProject ? 1 : 0);
-    console.log(`[start] Demo seed: ${changed === 0 ? 'already present' : `${createdUsers} accounts, ${createdProject ? 1 : 0} project, ${createdMemberships} memberships created`}.`);
+    console.log(
+      `[start] Demo seed: ${changed === 0 ? 'already present' : `${createdUsers} accounts, ${createdProject ? 1 : 0} project, ${createdMemberships} memberships created`}.`,
+    );
   }
-  if (prepared.admin !== 'not configured') console.log(`[start] Admin ${config.adminEmail}: ${prepared.admin}.`);
+  if (prepared.admin !== 'not configured')
+    console.log(`[start] Admin ${config.adminEmail}: ${prepared.admin}.`);
   buildClientIfStale();
 } catch (error) {
   await stopDatabase();
   fail(`Preparing the database failed: ${error instanceof Error ? error.message : String(error)}`);
 }
 
-const sessionSecret = config.sessionSecret ?? readOrCreateSecret(path.join(config.dataDir, 'session-secret'), 32);
+const sessionSecret =
+  config.sessionSecret ?? readOrCreateSecret(path.join(config.dataDir, 'session-secret'), 32);
 const runtime = await startRuntime({ ...config, databaseUrl }, { sessionSecret });
 let http: Awaited<ReturnType<typeof listen>>;
 try {
@@ -123,13 +129,16 @@ try {
 } catch (error) {
   await runtime.close();
   await stopDatabase();
-  fail(`Could not listen on ${config.host}:${config.port}: ${error instanceof Error ? error.message : String(error)}`);
+  fail(
+    `Could not listen on ${config.host}:${config.port}: ${error instanceof Error ? error.message : String(error)}`,
+  );
 }
 
 console.log(`\nSkysieve is running at ${http.url}\n`);
 console.log('Demo accounts (project "%s"):', demoProject.name);
 for (const account of demoAccounts) {
-  const role = account.role === 'admin' ? 'administrator' : `${account.projectRole ?? 'member'} of the demo project`;
+  const role =
+    account.role === 'admin' ? 'administrator' : `${account.projectRole ?? 'member'} of the demo project`;
   console.log(`  ${account.email.padEnd(32)} password ${account.password.padEnd(22)} ${role}`);
 }
 if (config.devMail) console.log('\nE-mail goes to the development inbox (sign in as admin → Admin → Mail).');

@@ -58,7 +58,9 @@ async function createDatabase(url: string, name: string, template?: string): Pro
 
 async function main(): Promise<number> {
   cluster = await createThrowawayCluster('skysieve-test-pg-');
-  console.log(`[test] PostgreSQL ${cluster.binaries.version} on 127.0.0.1:${cluster.port} in ${cluster.dataDir} (${seconds()} s)`);
+  console.log(
+    `[test] PostgreSQL ${cluster.binaries.version} on 127.0.0.1:${cluster.port} in ${cluster.dataDir} (${seconds()} s)`,
+  );
   await createDatabase(cluster.url(), templateDatabase);
   const knex = createKnex(cluster.url(templateDatabase), { min: 0, max: 1 });
   try {
@@ -92,8 +94,10 @@ let exitCode = 1;
 try {
   exitCode = await main();
 } catch (error) {
-  console.error('[test] Setting up the test database failed:', error instanceof Error ? error.message : error);
-  exitCode = 1;
+  console.error(
+    '[test] Setting up the test database failed:',
+    error instanceof Error ? error.message : error,
+  );
 } finally {
   await cleanUp();
 }

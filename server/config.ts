@@ -23,9 +23,21 @@ const environmentSchema = z.object({
   DATA_DIR: optionalString,
   SESSION_SECRET: optionalString,
   REGISTRATION_OPEN: booleanFromEnv.default(true),
-  DEFAULT_QUOTA_BYTES: z.coerce.number().int().nonnegative().default(5 * 1024 ** 3),
-  UPLOAD_MAX_BYTES: z.coerce.number().int().positive().default(512 * 1024 ** 2),
-  MAX_IMAGE_PIXELS: z.coerce.number().int().positive().default(4096 * 4096),
+  DEFAULT_QUOTA_BYTES: z.coerce
+    .number()
+    .int()
+    .nonnegative()
+    .default(5 * 1024 ** 3),
+  UPLOAD_MAX_BYTES: z.coerce
+    .number()
+    .int()
+    .positive()
+    .default(512 * 1024 ** 2),
+  MAX_IMAGE_PIXELS: z.coerce
+    .number()
+    .int()
+    .positive()
+    .default(4096 * 4096),
   PASSWORD_MIN_LENGTH: z.coerce.number().int().min(8).max(200).default(10),
   BCRYPT_ROUNDS: z.coerce.number().int().min(4).max(15).default(12),
   RESET_TOKEN_TTL_MINUTES: z.coerce.number().int().positive().default(60),
@@ -108,23 +120,26 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
   const production = e.NODE_ENV === 'production';
   const devMail = e.DEV_MAIL ?? !production;
   if (production && !devMail && !e.SMTP_HOST) {
-    throw new ConfigError('Invalid configuration: set SMTP_HOST (or DEV_MAIL=1) so the server can send e-mail.');
+    throw new ConfigError(
+      'Invalid configuration: set SMTP_HOST (or DEV_MAIL=1) so the server can send e-mail.',
+    );
   }
   if (production && !e.SESSION_SECRET) {
     throw new ConfigError('Invalid configuration: SESSION_SECRET must be set in production.');
   }
   if ((e.SKYSIEVE_ADMIN_EMAIL === undefined) !== (e.SKYSIEVE_ADMIN_PASSWORD === undefined)) {
-    throw new ConfigError('Invalid configuration: set both SKYSIEVE_ADMIN_EMAIL and SKYSIEVE_ADMIN_PASSWORD, or neither.');
+    throw new ConfigError(
+      'Invalid configuration: set both SKYSIEVE_ADMIN_EMAIL and SKYSIEVE_ADMIN_PASSWORD, or neither.',
+    );
   }
   if (e.SKYSIEVE_ADMIN_PASSWORD !== undefined && e.SKYSIEVE_ADMIN_PASSWORD.length < e.PASSWORD_MIN_LENGTH) {
     throw new ConfigError(
       `Invalid configuration: SKYSIEVE_ADMIN_PASSWORD must be at least ${e.PASSWORD_MIN_LENGTH} characters long.`,
     );
   }
-  const publicUrl = (e.PUBLIC_URL ?? `http://${e.HOST === '0.0.0.0' ? '127.0.0.1' : e.HOST}:${e.PORT}`).replace(
-    /\/+$/,
-    '',
-  );
+  const publicUrl = (
+    e.PUBLIC_URL ?? `http://${e.HOST === '0.0.0.0' ? '127.0.0.1' : e.HOST}:${e.PORT}`
+  ).replace(/\/+$/, '');
   return {
     nodeEnv: e.NODE_ENV,
     port: e.PORT,

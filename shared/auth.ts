@@ -5,7 +5,11 @@ export const globalRoleSchema = z.enum(['admin', 'member']);
 export type GlobalRole = z.infer<typeof globalRoleSchema>;
 
 /** An e-mail address as typed (trimmed). Uniqueness is case-insensitive on the server. */
-export const emailSchema = z.string().trim().max(254).pipe(z.email({ error: 'Enter a valid e-mail address.' }));
+export const emailSchema = z
+  .string()
+  .trim()
+  .max(254)
+  .pipe(z.email({ error: 'Enter a valid e-mail address.' }));
 
 /** A new password. The server additionally enforces its configured minimum length (see /api/config/public). */
 export const newPasswordSchema = z

@@ -36,7 +36,12 @@ async function adminUser(id: number): Promise<AdminUser> {
   return toAdminUser(user);
 }
 
-export async function updateUser(actor: User, id: number, input: AdminUpdateUserRequest, ip: string | null): Promise<AdminUser> {
+export async function updateUser(
+  actor: User,
+  id: number,
+  input: AdminUpdateUserRequest,
+  ip: string | null,
+): Promise<AdminUser> {
   if (id === actor.id && input.role === 'member') throw badRequest(selfDemoteMessage);
   if (id === actor.id && input.disabled === true) throw badRequest(selfDisableMessage);
   await User.transaction(async (trx) => {
@@ -46,7 +51,10 @@ export async function updateUser(actor: User, id: number, input: AdminUpdateUser
     const base = { actorId: actor.id, targetType: 'user' as const, targetId: id, ip };
     if (input.role !== undefined && input.role !== user.role) {
       changes.role = input.role;
-      await recordAudit({ ...base, action: 'user.role-changed', details: { from: user.role, to: input.role } }, trx);
+      await recordAudit(
+        { ...base, action: 'user.role-changed', details: { from: user.role, to: input.role } },
+        trx,
+      );
     }
     if (input.quotaBytes !== undefined && input.quotaBytes !== user.quotaBytes) {
       changes.quotaBytes = input.quotaBytes;

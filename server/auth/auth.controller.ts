@@ -18,7 +18,9 @@ import * as auth from './auth.service';
 import { type Authentication, clientIp, sessionCookieName } from './authentication';
 
 const logIn = (req: Express.Request, user: User) =>
-  new Promise<void>((resolve, reject) => req.login(user, (error?: unknown) => (error ? reject(error) : resolve())));
+  new Promise<void>((resolve, reject) =>
+    req.login(user, (error?: unknown) => (error ? reject(error) : resolve())),
+  );
 
 export function authController(ctx: AppContext, authentication: Authentication) {
   return {
@@ -40,7 +42,13 @@ export function authController(ctx: AppContext, authentication: Authentication) 
     async logout(req: Request, res: Response) {
       const user = req.user;
       if (user && req.authMethod === 'session') {
-        await recordAudit({ action: 'auth.sign-out', actorId: user.id, targetType: 'user', targetId: user.id, ip: clientIp(req) });
+        await recordAudit({
+          action: 'auth.sign-out',
+          actorId: user.id,
+          targetType: 'user',
+          targetId: user.id,
+          ip: clientIp(req),
+        });
       }
       if (req.session) await new Promise<void>((resolve) => req.session.destroy(() => resolve()));
       res.clearCookie(sessionCookieName, { path: '/' });

@@ -1,7 +1,12 @@
 /** Accounts: sign-up (with invitations), credentials, own settings, password change and reset. */
 import type { Knex } from 'knex';
 
-import type { PasswordChangeRequest, SignupRequest, UpdateMeRequest, InvitationPreview } from '../../shared/auth';
+import type {
+  PasswordChangeRequest,
+  SignupRequest,
+  UpdateMeRequest,
+  InvitationPreview,
+} from '../../shared/auth';
 import { recordAudit } from '../audit/audit.service';
 import type { AppContext } from '../context';
 import { AppError, badRequest, conflict, forbidden, notFound } from '../http/app-error';
@@ -33,7 +38,10 @@ export function checkPasswordLength(ctx: AppContext, password: string, field: st
 }
 
 const pendingInvitations = (email: string, trx?: Knex.Transaction) =>
-  Invitation.query(trx).whereRaw('lower(email) = lower(?)', [email]).whereNull('acceptedAt').where('expiresAt', '>', new Date());
+  Invitation.query(trx)
+    .whereRaw('lower(email) = lower(?)', [email])
+    .whereNull('acceptedAt')
+    .where('expiresAt', '>', new Date());
 
 /** Creates the account, joins the projects it was invited to; everything in one transaction. */
 export async function signUp(ctx: AppContext, input: SignupRequest, ip: string | null): Promise<User> {
@@ -55,7 +63,10 @@ export async function signUp(ctx: AppContext, input: SignupRequest, ip: string |
       quotaBytes: ctx.config.defaultQuotaBytes,
       bytesUsed: 0,
     });
-    await recordAudit({ action: 'auth.sign-up', actorId: user.id, targetType: 'user', targetId: user.id, ip }, trx);
+    await recordAudit(
+      { action: 'auth.sign-up', actorId: user.id, targetType: 'user', targetId: user.id, ip },
+      trx,
+    );
     for (const invitation of await pendingInvitations(input.email, trx).forUpdate()) {
       await Membership.query(trx)
         .insert({ projectId: invitation.projectId, userId: user.id, role: invitation.role })
@@ -131,12 +142,16 @@ export async function changePassword(
 ): Promise<void> {
   checkPasswordLength(ctx, input.newPassword, 'newPassword');
   const fresh = await User.query().findById(user.id).throwIfNotFound();
-  if (!(await checkPassword(input.currentPassword, fresh.passwordHash))) throw badRequest(wrongCurrentPasswordMessage);
+  if (!(await checkPassword(input.currentPassword, fresh.passwordHash)))
+    throw badRequest(wrongCurrentPasswordMessage);
   const passwordHash = await hashPassword(input.newPassword, ctx.config.bcryptRounds);
   await User.transaction(async (trx) => {
     await User.query(trx).patch({ passwordHash }).where('id', user.id);
     await destroyUserSessions(trx, user.id, currentSessionId);
-    await recordAudit({ action: 'auth.password-changed', actorId: user.id, targetType: 'user', targetId: user.id, ip }, trx);
+    await recordAudit(
+      { action: 'auth.password-changed', actorId: user.id, targetType: 'user', targetId: user.id, ip },
+      trx,
+    );
   });
 }
 
@@ -147,13 +162,20 @@ export async function requestPasswordReset(ctx: AppContext, email: string, ip: s
   const token = randomToken();
   const expiresAt = new Date(Date.now() + ctx.config.resetTokenTtlMinutes * 60_000);
   await PasswordReset.transaction(async (trx) => {
-    await PasswordReset.query(trx).insert({ userId: user.id, tokenHash: sha256Hex(token), expiresAt, requestedIp: ip });
+    await PasswordReset.query(trx).insert({
+      userId: user.id,
+      tokenHash: sha256Hex(token),
+      expiresAt,
+      requestedIp: ip,
+    });
     await recordAudit(
       { action: 'auth.password-reset-requested', targetType: 'user', targetId: user.id, ip },
       trx,
     );
   });
-  ctx.mailer.send(passwordResetMail(user.email, `${ctx.config.publicUrl}/reset/${token}`, ctx.config.resetTokenTtlMinutes));
+  ctx.mailer.send(
+    passwordResetMail(user.email, `${ctx.config.publicUrl}/reset/${token}`, ctx.config.resetTokenTtlMinutes),
+  );
 }
 
 /** Sets the new password if the token is known, unused and unexpired; signs the user out everywhere. */
@@ -175,7 +197,10 @@ export async function confirmPasswordReset(
     // This link and every other open link of the user stop working.
     await PasswordReset.query(trx).patch({ usedAt: new Date() }).where('userId', user.id).whereNull('usedAt');
     await destroyUserSessions(trx, user.id);
-    await recordAudit({ action: 'auth.password-reset', actorId: user.id, targetType: 'user', targetId: user.id, ip }, trx);
+    await recordAudit(
+      { action: 'auth.password-reset', actorId: user.id, targetType: 'user', targetId: user.id, ip },
+      trx,
+    );
   });
 }
 

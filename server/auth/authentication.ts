@@ -35,7 +35,10 @@ export const parseCookies: RequestHandler = (req, _res, next) => {
     const equals = pair.indexOf('=');
     if (equals <= 0) continue;
     const name = pair.slice(0, equals).trim();
-    const raw = pair.slice(equals + 1).trim().replace(/^"(.*)"$/, '$1');
+    const raw = pair
+      .slice(equals + 1)
+      .trim()
+      .replace(/^"(.*)"$/, '$1');
     try {
       cookies[name] = decodeURIComponent(raw);
     } catch {
@@ -62,12 +65,15 @@ export interface Authentication {
 export function createAuthentication(ctx: AppContext): Authentication {
   const passport = new Passport();
   passport.use(
-    new LocalStrategy({ usernameField: 'email', passwordField: 'password', passReqToCallback: true }, (req, email, password, done) => {
-      verifyCredentials(ctx, email, password, clientIp(req)).then(
-        (user) => done(null, user ?? false),
-        (error: unknown) => done(error),
-      );
-    }),
+    new LocalStrategy(
+      { usernameField: 'email', passwordField: 'password', passReqToCallback: true },
+      (req, email, password, done) => {
+        verifyCredentials(ctx, email, password, clientIp(req)).then(
+          (user) => done(null, user ?? false),
+          (error: unknown) => done(error),
+        );
+      },
+    ),
   );
   passport.serializeUser((user, done) => done(null, String(user.id)));
   passport.deserializeUser((id: string, done) => {
@@ -79,7 +85,12 @@ export function createAuthentication(ctx: AppContext): Authentication {
 
   const PgStore = connectPgSimple(session);
   const pool = new pg.Pool({ connectionString: ctx.config.databaseUrl, max: 4 });
-  const store = new PgStore({ pool, tableName: 'session', createTableIfMissing: false, pruneSessionInterval: 15 * 60 });
+  const store = new PgStore({
+    pool,
+    tableName: 'session',
+    createTableIfMissing: false,
+    pruneSessionInterval: 15 * 60,
+  });
   const secureCookies = ctx.config.trustProxy && ctx.config.publicUrl.startsWith('https://');
   const sessionMiddleware = session({
     name: sessionCookieName,
@@ -118,7 +129,10 @@ export function createAuthentication(ctx: AppContext): Authentication {
     }
     findUserByToken(token)
       .then((user) => {
-        if (!user) return next(unauthenticated('This API token is not valid (revoked, mistyped or its account is disabled).'));
+        if (!user)
+          return next(
+            unauthenticated('This API token is not valid (revoked, mistyped or its account is disabled).'),
+          );
         req.user = user;
         req.authMethod = 'token';
         next();

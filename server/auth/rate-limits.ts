@@ -5,7 +5,12 @@ import { rateLimit } from 'express-rate-limit';
 import type { Config } from '../config';
 import { AppError } from '../http/app-error';
 
-function limiter(limit: number, windowMinutes: number, message: string, onlyFailures: boolean): RequestHandler {
+function limiter(
+  limit: number,
+  windowMinutes: number,
+  message: string,
+  onlyFailures: boolean,
+): RequestHandler {
   return rateLimit({
     windowMs: windowMinutes * 60_000,
     limit,

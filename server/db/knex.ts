@@ -42,7 +42,10 @@ export const migrationConfig: Knex.MigratorConfig = {
 };
 
 /** A Knex instance with camelCase ↔ snake_case mapping, bound to Objection's Model. */
-export function createKnex(databaseUrl: string, pool: { min: number; max: number } = { min: 0, max: 10 }): Knex {
+export function createKnex(
+  databaseUrl: string,
+  pool: { min: number; max: number } = { min: 0, max: 10 },
+): Knex {
   const knex = knexFactory({
     client: 'pg',
     connection: databaseUrl,

@@ -37,7 +37,11 @@ export interface LocalCluster {
   stop(): Promise<void>;
 }
 
-export async function startLocalCluster(binaries: PostgresBinaries, dataRoot: string, port: number): Promise<LocalCluster> {
+export async function startLocalCluster(
+  binaries: PostgresBinaries,
+  dataRoot: string,
+  port: number,
+): Promise<LocalCluster> {
   const root = path.resolve(dataRoot);
   // The postgres user must be able to pass through to root/pg; the secrets themselves are 0600.
   mkdirSync(root, { recursive: true });

@@ -52,7 +52,10 @@ export function runPostgresTool(command: string, args: string[], cwd: string): P
     child.on('error', reject);
     child.on('close', (code) => {
       if (code === 0) resolve({ code, output });
-      else reject(new Error(`${path.basename(command)} ${args.join(' ')} failed (exit ${code}):\n${output.trim()}`));
+      else
+        reject(
+          new Error(`${path.basename(command)} ${args.join(' ')} failed (exit ${code}):\n${output.trim()}`),
+        );
     });
   });
 }
@@ -128,7 +131,11 @@ export async function startCluster(options: ClusterOptions): Promise<void> {
 export async function stopCluster(options: Pick<ClusterOptions, 'binaries' | 'dataDir'>): Promise<void> {
   const dataDir = path.resolve(options.dataDir);
   if (!existsSync(path.join(dataDir, 'postmaster.pid'))) return;
-  await runPostgresTool(options.binaries.pgCtl, ['-D', dataDir, '-m', 'fast', '-w', '-t', '60', 'stop'], dataDir);
+  await runPostgresTool(
+    options.binaries.pgCtl,
+    ['-D', dataDir, '-m', 'fast', '-w', '-t', '60', 'stop'],
+    dataDir,
+  );
 }
 
 /** A TCP port on 127.0.0.1 that nothing listens on right now. */

@@ -9,7 +9,11 @@ export interface PrepareResult {
   admin: AdminBootstrap;
 }
 
-export async function prepareDatabase(databaseUrl: string, config: Config, options: { seed: boolean }): Promise<PrepareResult> {
+export async function prepareDatabase(
+  databaseUrl: string,
+  config: Config,
+  options: { seed: boolean },
+): Promise<PrepareResult> {
   const knex = createKnex(databaseUrl, { min: 0, max: 2 });
   try {
     const appliedMigrations = await migrateLatest(knex);

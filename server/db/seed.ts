@@ -24,9 +24,27 @@ export interface DemoAccount {
 
 /** Demo sign-ins printed by `npm start` (for a local demo only; change or disable them for real use). */
 export const demoAccounts: DemoAccount[] = [
-  { email: 'admin@lyra-survey.example', password: 'lyra-admin-demo', displayName: 'Survey Administrator', role: 'admin', projectRole: null },
-  { email: 'astro@lyra-survey.example', password: 'lyra-astro-demo', displayName: 'Ada Stellwagen', role: 'member', projectRole: 'owner' },
-  { email: 'colleague@lyra-survey.example', password: 'lyra-colleague-demo', displayName: 'Colm Leary', role: 'member', projectRole: 'viewer' },
+  {
+    email: 'admin@lyra-survey.example',
+    password: 'lyra-admin-demo',
+    displayName: 'Survey Administrator',
+    role: 'admin',
+    projectRole: null,
+  },
+  {
+    email: 'astro@lyra-survey.example',
+    password: 'lyra-astro-demo',
+    displayName: 'Ada Stellwagen',
+    role: 'member',
+    projectRole: 'owner',
+  },
+  {
+    email: 'colleague@lyra-survey.example',
+    password: 'lyra-colleague-demo',
+    displayName: 'Colm Leary',
+    role: 'member',
+    projectRole: 'viewer',
+  },
 ];
 
 export const demoProject = {
@@ -73,7 +91,11 @@ export async function seedDemo(knex: Knex, config: Config): Promise<SeedResult> 
       const user = users.get(account.email);
       if (!account.projectRole || !user) continue;
       if (await Membership.query(trx).where({ projectId: project.id, userId: user.id }).first()) continue;
-      await Membership.query(trx).insert({ projectId: project.id, userId: user.id, role: account.projectRole });
+      await Membership.query(trx).insert({
+        projectId: project.id,
+        userId: user.id,
+        role: account.projectRole,
+      });
       result.createdMemberships++;
     }
   });
@@ -101,12 +123,18 @@ export async function ensureAdmin(knex: Knex, config: Config): Promise<AdminBoot
         quotaBytes: config.defaultQuotaBytes,
         bytesUsed: 0,
       });
-      await recordAudit({ action: 'user.bootstrapped', targetType: 'user', targetId: created.id, details: { created: true } }, trx);
+      await recordAudit(
+        { action: 'user.bootstrapped', targetType: 'user', targetId: created.id, details: { created: true } },
+        trx,
+      );
       return 'created';
     }
     if (user.role === 'admin' && !user.disabled) return 'unchanged';
     await User.query(trx).patch({ role: 'admin', disabled: false }).where('id', user.id);
-    await recordAudit({ action: 'user.bootstrapped', targetType: 'user', targetId: user.id, details: { created: false } }, trx);
+    await recordAudit(
+      { action: 'user.bootstrapped', targetType: 'user', targetId: user.id, details: { created: false } },
+      trx,
+    );
     return 'promoted';
   });
 }

@@ -3,7 +3,14 @@ import { mkdtempSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 
-import { findFreePort, findPostgresBinaries, initCluster, type PostgresBinaries, startCluster, stopCluster } from './postgres-cluster';
+import {
+  findFreePort,
+  findPostgresBinaries,
+  initCluster,
+  type PostgresBinaries,
+  startCluster,
+  stopCluster,
+} from './postgres-cluster';
 
 export interface ThrowawayCluster {
   dataDir: string;

@@ -24,7 +24,11 @@ export interface RouteResponse {
   schema?: ZodType;
 }
 
-export interface RouteSpec<B extends ZodType | undefined, P extends ZodType | undefined, Q extends ZodType | undefined> {
+export interface RouteSpec<
+  B extends ZodType | undefined,
+  P extends ZodType | undefined,
+  Q extends ZodType | undefined,
+> {
   method: 'get' | 'post' | 'patch' | 'put' | 'delete';
   /** Express path, e.g. /api/projects/:id */
   path: string;
@@ -97,7 +101,8 @@ export function registerRoutes(registry: OpenAPIRegistry, routes: AnyRouteSpec[]
     type: 'apiKey',
     in: 'cookie',
     name: 'skysieve.sid',
-    description: 'Session cookie; state-changing requests also need the x-csrf-token header (GET /api/auth/csrf).',
+    description:
+      'Session cookie; state-changing requests also need the x-csrf-token header (GET /api/auth/csrf).',
   });
   registry.registerComponent('securitySchemes', 'apiToken', {
     type: 'http',
@@ -140,5 +145,8 @@ export function registerRoutes(registry: OpenAPIRegistry, routes: AnyRouteSpec[]
 /** Error responses a route declares beyond the defaults. */
 export const errors = (...statuses: number[]): Record<number, RouteResponse> =>
   Object.fromEntries(
-    statuses.map((status) => [status, { description: errorDescriptions[status] ?? 'Error', schema: errorBodySchema }]),
+    statuses.map((status) => [
+      status,
+      { description: errorDescriptions[status] ?? 'Error', schema: errorBodySchema },
+    ]),
   );

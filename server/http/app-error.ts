@@ -14,7 +14,8 @@ export class AppError extends Error {
   }
 }
 
-export const badRequest = (message: string, details?: unknown) => new AppError('bad_request', message, details);
+export const badRequest = (message: string, details?: unknown) =>
+  new AppError('bad_request', message, details);
 export const unauthenticated = (message = 'Sign in to continue.') => new AppError('unauthenticated', message);
 export const forbidden = (message: string) => new AppError('forbidden', message);
 export const notFound = (message: string) => new AppError('not_found', message);

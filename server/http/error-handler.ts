@@ -45,12 +45,14 @@ export function describeError(error: unknown): { status: number; body: ErrorBody
   if (error instanceof NotNullViolationError || error instanceof CheckViolationError) {
     return make('validation_failed', 'The data is not valid.');
   }
-  if (error instanceof DBError) return make('internal', 'Something went wrong on the server.', undefined, true);
+  if (error instanceof DBError)
+    return make('internal', 'Something went wrong on the server.', undefined, true);
   // body-parser errors carry a `type` and a status.
   if (typeof error === 'object' && error !== null && 'type' in error) {
     const type = (error as { type: unknown }).type;
     if (type === 'entity.too.large') return make('payload_too_large', 'The request body is too large.');
-    if (type === 'entity.parse.failed') return make('validation_failed', 'The request body is not valid JSON.');
+    if (type === 'entity.parse.failed')
+      return make('validation_failed', 'The request body is not valid JSON.');
     if (type === 'charset.unsupported' || type === 'encoding.unsupported') {
       return make('validation_failed', 'The request body encoding is not supported.');
     }

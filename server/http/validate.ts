@@ -44,7 +44,12 @@ export function validate(schemas: RequestSchemas): RequestHandler {
         return;
       }
       // Express 5 defines req.query as a getter; redefine it on this request.
-      Object.defineProperty(req, part, { value: result.data, writable: true, configurable: true, enumerable: true });
+      Object.defineProperty(req, part, {
+        value: result.data,
+        writable: true,
+        configurable: true,
+        enumerable: true,
+      });
     }
     next();
   };

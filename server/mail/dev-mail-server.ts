@@ -17,7 +17,10 @@ export interface DevMailServer {
 
 const maxMessageBytes = 10 * 1024 * 1024;
 
-export async function startDevMailServer(port: number, logError: (error: unknown) => void): Promise<DevMailServer> {
+export async function startDevMailServer(
+  port: number,
+  logError: (error: unknown) => void,
+): Promise<DevMailServer> {
   const server = new SMTPServer({
     // Loopback only, no TLS and no login: this receiver never talks to the outside.
     secure: false,

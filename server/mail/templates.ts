@@ -2,9 +2,17 @@
 import type { OutgoingMail } from './mailer';
 
 const escapeHtml = (text: string): string =>
-  text.replace(/[&<>"']/g, (char) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[char]!);
+  text.replace(
+    /[&<>"']/g,
+    (char) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[char]!,
+  );
 
-function compose(to: string, subject: string, paragraphs: string[], link?: { url: string; label: string }): OutgoingMail {
+function compose(
+  to: string,
+  subject: string,
+  paragraphs: string[],
+  link?: { url: string; label: string },
+): OutgoingMail {
   const text = [...paragraphs, ...(link ? [`${link.label}: ${link.url}`] : []), '— Skysieve'].join('\n\n');
   const html = [
     ...paragraphs.map((paragraph) => `<p>${escapeHtml(paragraph)}</p>`),
@@ -26,7 +34,14 @@ export function passwordResetMail(to: string, url: string, ttlMinutes: number): 
   );
 }
 
-export function invitationMail(to: string, projectName: string, inviter: string, role: string, url: string, days: number) {
+export function invitationMail(
+  to: string,
+  projectName: string,
+  inviter: string,
+  role: string,
+  url: string,
+  days: number,
+) {
   return compose(
     to,
     `${inviter} invited you to the Skysieve project "${projectName}"`,
@@ -38,7 +53,13 @@ export function invitationMail(to: string, projectName: string, inviter: string,
   );
 }
 
-export function addedToProjectMail(to: string, projectName: string, inviter: string, role: string, url: string) {
+export function addedToProjectMail(
+  to: string,
+  projectName: string,
+  inviter: string,
+  role: string,
+  url: string,
+) {
   return compose(
     to,
     `You were added to the Skysieve project "${projectName}"`,

@@ -33,7 +33,12 @@ export function projectsController(ctx: AppContext) {
       res.json(await projects.updateProject(currentUser(req), projectAccessOf(req), req.body, clientIp(req)));
     },
     async remove(req: ApiRequest<DeleteProjectRequest, IdParams>, res: Response) {
-      await projects.deleteProject(currentUser(req), projectAccessOf(req), req.body.confirmName, clientIp(req));
+      await projects.deleteProject(
+        currentUser(req),
+        projectAccessOf(req),
+        req.body.confirmName,
+        clientIp(req),
+      );
       res.status(204).end();
     },
     async members(req: ApiRequest<unknown, IdParams>, res: Response) {
@@ -41,7 +46,14 @@ export function projectsController(ctx: AppContext) {
     },
     async addMember(req: ApiRequest<AddMemberRequest, IdParams>, res: Response) {
       const { email, role } = req.body;
-      const result = await projects.addMember(ctx, currentUser(req), projectAccessOf(req), email, role, clientIp(req));
+      const result = await projects.addMember(
+        ctx,
+        currentUser(req),
+        projectAccessOf(req),
+        email,
+        role,
+        clientIp(req),
+      );
       if (result.kind === 'member') res.status(201).json({ member: result.member });
       else res.status(202).json({ invitation: result.invitation });
     },
@@ -62,7 +74,12 @@ export function projectsController(ctx: AppContext) {
       res.json(await projects.listInvitations(req.params.id));
     },
     async revokeInvitation(req: ApiRequest<unknown, InvitationParams>, res: Response) {
-      await projects.revokeInvitation(currentUser(req), req.params.id, req.params.invitationId, clientIp(req));
+      await projects.revokeInvitation(
+        currentUser(req),
+        req.params.id,
+        req.params.invitationId,
+        clientIp(req),
+      );
       res.status(204).end();
     },
   };

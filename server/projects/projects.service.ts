@@ -43,7 +43,9 @@ interface SummaryRow {
 
 function summaryQuery(knex: Knex, userId: number) {
   return knex('projects as p')
-    .leftJoin('memberships as m', (join) => join.on('m.project_id', 'p.id').andOn('m.user_id', knex.raw('?', [userId])))
+    .leftJoin('memberships as m', (join) =>
+      join.on('m.project_id', 'p.id').andOn('m.user_id', knex.raw('?', [userId])),
+    )
     .select(
       'p.id',
       'p.name',
@@ -75,7 +77,8 @@ export async function listProjects(user: User, all: boolean): Promise<ProjectSum
 }
 
 export async function projectSummary(user: User, projectId: number): Promise<ProjectSummary> {
-  const row = (await summaryQuery(Project.knex(), user.id).where('p.id', projectId).first()) as SummaryRow | undefined;
+  const row = (await summaryQuery(Project.knex(), user.id).where('p.id', projectId).first()) as
+    SummaryRow | undefined;
   if (!row) throw notFound('Project not found.');
   return toSummary(row);
 }
@@ -100,7 +103,11 @@ export async function projectDetail(user: User, projectId: number): Promise<Proj
   return { ...(await projectSummary(user, projectId)), members: await listMembers(projectId) };
 }
 
-export async function createProject(user: User, input: CreateProjectRequest, ip: string | null): Promise<ProjectSummary> {
+export async function createProject(
+  user: User,
+  input: CreateProjectRequest,
+  ip: string | null,
+): Promise<ProjectSummary> {
   const project = await Project.transaction(async (trx) => {
     const created = await Project.query(trx).insertAndFetch({
       name: input.name,
@@ -109,7 +116,14 @@ export async function createProject(user: User, input: CreateProjectRequest, ip:
     });
     await Membership.query(trx).insert({ projectId: created.id, userId: user.id, role: 'owner' });
     await recordAudit(
-      { action: 'project.created', actorId: user.id, targetType: 'project', targetId: created.id, details: { name: created.name }, ip },
+      {
+        action: 'project.created',
+        actorId: user.id,
+        targetType: 'project',
+        targetId: created.id,
+        details: { name: created.name },
+        ip,
+      },
       trx,
     );
     return created;
@@ -132,7 +146,10 @@ export async function updateProject(
           actorId: user.id,
           targetType: 'project',
           targetId: access.project.id,
-          details: { before: { name: access.project.name, description: access.project.description }, after: input },
+          details: {
+            before: { name: access.project.name, description: access.project.description },
+            after: input,
+          },
           ip,
         },
         trx,
@@ -142,18 +159,31 @@ export async function updateProject(
   return projectSummary(user, access.project.id);
 }
 
-export async function deleteProject(user: User, access: ProjectAccess, confirmName: string, ip: string | null): Promise<void> {
+export async function deleteProject(
+  user: User,
+  access: ProjectAccess,
+  confirmName: string,
+  ip: string | null,
+): Promise<void> {
   if (confirmName !== access.project.name) throw badRequest(confirmNameMessage);
   await Project.transaction(async (trx) => {
     await Project.query(trx).deleteById(access.project.id);
     await recordAudit(
-      { action: 'project.deleted', actorId: user.id, targetType: 'project', targetId: access.project.id, details: { name: access.project.name }, ip },
+      {
+        action: 'project.deleted',
+        actorId: user.id,
+        targetType: 'project',
+        targetId: access.project.id,
+        details: { name: access.project.name },
+        ip,
+      },
       trx,
     );
   });
 }
 
-export type AddMemberResult = { kind: 'member'; member: Member } | { kind: 'invitation'; invitation: InvitationDto };
+export type AddMemberResult =
+  { kind: 'member'; member: Member } | { kind: 'invitation'; invitation: InvitationDto };
 
 /** Adds an existing account at once; otherwise invites the address (joins on sign-up). Both send an e-mail. */
 export async function addMember(
@@ -172,7 +202,11 @@ export async function addMember(
       if (await Membership.query(trx).where({ projectId: project.id, userId: existing.id }).first()) {
         throw conflict(alreadyMemberMessage);
       }
-      const membership = await Membership.query(trx).insertAndFetch({ projectId: project.id, userId: existing.id, role });
+      const membership = await Membership.query(trx).insertAndFetch({
+        projectId: project.id,
+        userId: existing.id,
+        role,
+      });
       await recordAudit(
         {
           action: 'member.added',
@@ -187,7 +221,15 @@ export async function addMember(
       return membership;
     });
     ctx.mailer.send(addedToProjectMail(existing.email, project.name, actor.displayName, role, projectUrl));
-    return { kind: 'member', member: { userId: existing.id, email: existing.email, displayName: existing.displayName, role: member.role } };
+    return {
+      kind: 'member',
+      member: {
+        userId: existing.id,
+        email: existing.email,
+        displayName: existing.displayName,
+        role: member.role,
+      },
+    };
   }
   const token = randomToken();
   const invitation = await Invitation.transaction(async (trx) => {
@@ -222,21 +264,41 @@ export async function addMember(
     return created;
   });
   const signupUrl = `${ctx.config.publicUrl}/signup?invitation=${encodeURIComponent(token)}`;
-  ctx.mailer.send(invitationMail(email, project.name, actor.displayName, role, signupUrl, ctx.config.invitationTtlDays));
+  ctx.mailer.send(
+    invitationMail(email, project.name, actor.displayName, role, signupUrl, ctx.config.invitationTtlDays),
+  );
   return { kind: 'invitation', invitation: invitation.toDto() };
 }
 
 export async function listInvitations(projectId: number): Promise<InvitationDto[]> {
-  const invitations = await Invitation.query().where('projectId', projectId).whereNull('acceptedAt').orderBy('id', 'desc');
+  const invitations = await Invitation.query()
+    .where('projectId', projectId)
+    .whereNull('acceptedAt')
+    .orderBy('id', 'desc');
   return invitations.map((invitation) => invitation.toDto());
 }
 
-export async function revokeInvitation(actor: User, projectId: number, invitationId: number, ip: string | null): Promise<void> {
+export async function revokeInvitation(
+  actor: User,
+  projectId: number,
+  invitationId: number,
+  ip: string | null,
+): Promise<void> {
   await Invitation.transaction(async (trx) => {
-    const removed = await Invitation.query(trx).delete().where({ id: invitationId, projectId }).whereNull('acceptedAt');
+    const removed = await Invitation.query(trx)
+      .delete()
+      .where({ id: invitationId, projectId })
+      .whereNull('acceptedAt');
     if (removed === 0) throw notFound('No such invitation in this project.');
     await recordAudit(
-      { action: 'invitation.revoked', actorId: actor.id, targetType: 'invitation', targetId: invitationId, details: { projectId }, ip },
+      {
+        action: 'invitation.revoked',
+        actorId: actor.id,
+        targetType: 'invitation',
+        targetId: invitationId,
+        details: { projectId },
+        ip,
+      },
       trx,
     );
   });
@@ -255,8 +317,14 @@ async function lockedMembership(trx: Knex.Transaction, projectId: number, userId
 async function handOverOwnerId(trx: Knex.Transaction, projectId: number, userId: number): Promise<void> {
   const project = await Project.query(trx).findById(projectId);
   if (!project || project.ownerId !== userId) return;
-  const next = await Membership.query(trx).where({ projectId, role: 'owner' }).orderBy('createdAt').orderBy('id').first();
-  await Project.query(trx).patch({ ownerId: next?.userId ?? null }).where('id', projectId);
+  const next = await Membership.query(trx)
+    .where({ projectId, role: 'owner' })
+    .orderBy('createdAt')
+    .orderBy('id')
+    .first();
+  await Project.query(trx)
+    .patch({ ownerId: next?.userId ?? null })
+    .where('id', projectId);
 }
 
 export async function changeMemberRole(
@@ -268,7 +336,8 @@ export async function changeMemberRole(
 ): Promise<Member> {
   return Membership.transaction(async (trx) => {
     const { membership, owners } = await lockedMembership(trx, projectId, userId, memberNotFoundMessage);
-    if (membership.role === 'owner' && role !== 'owner' && owners.length === 1) throw conflict(lastOwnerMessage);
+    if (membership.role === 'owner' && role !== 'owner' && owners.length === 1)
+      throw conflict(lastOwnerMessage);
     if (membership.role !== role) {
       await Membership.query(trx).patch({ role }).where('id', membership.id);
       if (role !== 'owner') await handOverOwnerId(trx, projectId, userId);

@@ -1,4 +1,9 @@
-import { apiTokenListSchema, createdTokenSchema, createTokenRequestSchema, tokenIdParamsSchema } from '../../shared/tokens';
+import {
+  apiTokenListSchema,
+  createdTokenSchema,
+  createTokenRequestSchema,
+  tokenIdParamsSchema,
+} from '../../shared/tokens';
 import { type AnyRouteSpec, defineRoute, errors } from '../http/api-route';
 import { tokensController } from './tokens.controller';
 

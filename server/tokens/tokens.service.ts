@@ -21,7 +21,14 @@ export async function createToken(user: User, name: string, ip: string | null): 
       lastUsedAt: null,
     });
     await recordAudit(
-      { action: 'token.created', actorId: user.id, targetType: 'token', targetId: created.id, details: { name }, ip },
+      {
+        action: 'token.created',
+        actorId: user.id,
+        targetType: 'token',
+        targetId: created.id,
+        details: { name },
+        ip,
+      },
       trx,
     );
     return created;
@@ -37,7 +44,10 @@ export async function revokeToken(user: User, tokenId: number, ip: string | null
   await ApiToken.transaction(async (trx) => {
     const removed = await ApiToken.query(trx).delete().where({ id: tokenId, userId: user.id });
     if (removed === 0) throw notFound('No such token.');
-    await recordAudit({ action: 'token.revoked', actorId: user.id, targetType: 'token', targetId: tokenId, ip }, trx);
+    await recordAudit(
+      { action: 'token.revoked', actorId: user.id, targetType: 'token', targetId: tokenId, ip },
+      trx,
+    );
   });
 }
 

@@ -5,7 +5,15 @@ import { adminUserListSchema, auditPageSchema, devMailMessageSchema } from '../.
 import { createToken } from '../../server/tokens/tokens.service';
 import { AuditEvent } from '../../server/models/audit-event';
 import type { User } from '../../server/models/user';
-import { apiError, type BrowserClient, createUser, signIn, startTestApp, type TestApp, TokenClient } from '../support/test-app';
+import {
+  apiError,
+  type BrowserClient,
+  createUser,
+  signIn,
+  startTestApp,
+  type TestApp,
+  TokenClient,
+} from '../support/test-app';
 
 let t: TestApp;
 let admin: User;
@@ -35,7 +43,10 @@ describe('admin: users', () => {
   });
   it('changes role and quota, each audited with before and after', async () => {
     const member = await createUser(t.ctx, { quotaBytes: 1000 });
-    const response = await adminClient.patch(`/api/admin/users/${member.id}`, { role: 'admin', quotaBytes: 2_000_000_000_000 });
+    const response = await adminClient.patch(`/api/admin/users/${member.id}`, {
+      role: 'admin',
+      quotaBytes: 2_000_000_000_000,
+    });
     expect(response.status).toBe(200);
     expect(response.body).toMatchObject({ role: 'admin', quotaBytes: 2_000_000_000_000 });
     const events = await AuditEvent.query().where({ targetType: 'user', targetId: member.id }).orderBy('id');
@@ -76,7 +87,9 @@ describe('admin: users', () => {
     expect(on.body.disabled).toBe(false);
     await signIn(t.app, member.email);
     expect((await new TokenClient(t.app, token).get('/api/projects')).status).toBe(200);
-    const actions = (await AuditEvent.query().where({ targetId: member.id, targetType: 'user' }).orderBy('id')).map((e) => e.action);
+    const actions = (
+      await AuditEvent.query().where({ targetId: member.id, targetType: 'user' }).orderBy('id')
+    ).map((e) => e.action);
     expect(actions).toEqual(expect.arrayContaining(['user.disabled', 'user.enabled']));
   });
   it('answers 404 for an unknown user', async () => {
@@ -92,17 +105,27 @@ describe('admin: audit log', () => {
     const memberClient = await signIn(t.app, member.email);
     for (const name of ['One', 'Two', 'Three']) await memberClient.post('/api/projects', { name });
     const page1 = auditPageSchema.parse(
-      (await adminClient.get(`/api/admin/audit?action=project.created&actorId=${member.id}&pageSize=2`).expect(200)).body,
+      (
+        await adminClient
+          .get(`/api/admin/audit?action=project.created&actorId=${member.id}&pageSize=2`)
+          .expect(200)
+      ).body,
     );
     expect(page1.total).toBe(3);
     expect(page1.items.map((event) => event.details.name)).toEqual(['Three', 'Two']);
     expect(page1.items[0]).toMatchObject({ actorEmail: 'audited@example.org', targetType: 'project' });
     expect(page1.items[0]?.ip).toMatch(/127\.0\.0\.1/);
     const page2 = auditPageSchema.parse(
-      (await adminClient.get(`/api/admin/audit?action=project.created&actorId=${member.id}&pageSize=2&page=2`)).body,
+      (
+        await adminClient.get(
+          `/api/admin/audit?action=project.created&actorId=${member.id}&pageSize=2&page=2`,
+        )
+      ).body,
     );
     expect(page2.items.map((event) => event.details.name)).toEqual(['One']);
-    const byType = auditPageSchema.parse((await adminClient.get(`/api/admin/audit?targetType=user&actorId=${member.id}`)).body);
+    const byType = auditPageSchema.parse(
+      (await adminClient.get(`/api/admin/audit?targetType=user&actorId=${member.id}`)).body,
+    );
     expect(byType.items.every((event) => event.targetType === 'user')).toBe(true);
     expect(byType.items.map((event) => event.action)).toContain('auth.sign-in');
   });
@@ -118,10 +141,16 @@ describe('admin: development mail inbox', () => {
     const user = await createUser(t.ctx, { email: 'inbox-reader@example.org' });
     await (await signIn(t.app, admin.email)).post('/api/auth/password-reset/request', { email: user.email });
     await t.ctx.mailer.idle();
-    const list = (await adminClient.get('/api/admin/mail').expect(200)).body as { id: number; to: string; subject: string }[];
+    const list = (await adminClient.get('/api/admin/mail').expect(200)).body as {
+      id: number;
+      to: string;
+      subject: string;
+    }[];
     const summary = list.find((message) => message.to.includes('inbox-reader@example.org'));
     expect(summary?.subject).toBe('Reset your Skysieve password');
-    const message = devMailMessageSchema.parse((await adminClient.get(`/api/admin/mail/${summary?.id}`).expect(200)).body);
+    const message = devMailMessageSchema.parse(
+      (await adminClient.get(`/api/admin/mail/${summary?.id}`).expect(200)).body,
+    );
     expect(message.from).toBe('Skysieve <no-reply@skysieve.invalid>');
     expect(message.text).toContain('The link below works once and expires in 60 minutes.');
     expect(message.html).toContain('<a href="http://skysieve.test/reset/');

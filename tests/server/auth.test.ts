@@ -5,7 +5,15 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { userResponseSchema } from '../../shared/auth';
 import { AuditEvent } from '../../server/models/audit-event';
 import { User } from '../../server/models/user';
-import { apiError, BrowserClient, createUser, signIn, startTestApp, type TestApp, testPassword } from '../support/test-app';
+import {
+  apiError,
+  BrowserClient,
+  createUser,
+  signIn,
+  startTestApp,
+  type TestApp,
+  testPassword,
+} from '../support/test-app';
 
 let t: TestApp;
 beforeAll(async () => {
@@ -22,11 +30,18 @@ describe('health and public config', () => {
   });
   it('publishes what the client needs before sign-in', async () => {
     const response = await request(t.app).get('/api/config/public').expect(200);
-    expect(response.body).toEqual({ registrationOpen: true, version: t.ctx.version, devMail: true, passwordMinLength: 10 });
+    expect(response.body).toEqual({
+      registrationOpen: true,
+      version: t.ctx.version,
+      devMail: true,
+      passwordMinLength: 10,
+    });
   });
   it('answers unknown API paths with the JSON error shape', async () => {
     const response = await request(t.app).get('/api/nothing-here').expect(404);
-    expect(response.body).toEqual({ error: { code: 'not_found', message: 'No API route GET /api/nothing-here.' } });
+    expect(response.body).toEqual({
+      error: { code: 'not_found', message: 'No API route GET /api/nothing-here.' },
+    });
   });
   it('sends security headers (helmet) with a CSP that allows own scripts and blob: workers', async () => {
     const response = await request(t.app).get('/api/health');
@@ -73,7 +88,9 @@ describe('sign-up', () => {
       password: 'a-long-enough-password',
     });
     expect(response.status).toBe(409);
-    expect(response.body).toEqual(apiError('conflict', 'An account with this e-mail address already exists.'));
+    expect(response.body).toEqual(
+      apiError('conflict', 'An account with this e-mail address already exists.'),
+    );
   });
   it('enforces the minimum password length with a field issue', async () => {
     const response = await new BrowserClient(t.app).post('/api/auth/signup', {
@@ -84,7 +101,9 @@ describe('sign-up', () => {
     expect(response.status).toBe(400);
     expect(response.body.error.code).toBe('validation_failed');
     expect(response.body.error.message).toBe('password: Passwords must be at least 10 characters long.');
-    expect(response.body.error.details.issues).toEqual([{ path: ['password'], message: 'Passwords must be at least 10 characters long.' }]);
+    expect(response.body.error.details.issues).toEqual([
+      { path: ['password'], message: 'Passwords must be at least 10 characters long.' },
+    ]);
   });
   it('rejects an invalid e-mail with a readable message', async () => {
     const response = await new BrowserClient(t.app).post('/api/auth/signup', {
@@ -121,7 +140,10 @@ describe('sign-in and sign-out', () => {
   it('signs in case-insensitively, records the time and audits', async () => {
     const user = await createUser(t.ctx, { email: 'altair@example.org' });
     const client = new BrowserClient(t.app);
-    const response = await client.post('/api/auth/login', { email: 'ALTAIR@example.org', password: testPassword });
+    const response = await client.post('/api/auth/login', {
+      email: 'ALTAIR@example.org',
+      password: testPassword,
+    });
     expect(response.status).toBe(200);
     expect(response.body.user.id).toBe(user.id);
     expect(response.headers['set-cookie']?.toString()).toMatch(/skysieve\.sid=.*HttpOnly.*SameSite=Lax/i);
@@ -136,20 +158,28 @@ describe('sign-in and sign-out', () => {
     ]) {
       const response = await new BrowserClient(t.app).post('/api/auth/login', body);
       expect(response.status).toBe(401);
-      expect(response.body).toEqual({ error: { code: 'wrong_credentials', message: 'Wrong e-mail or password.' } });
+      expect(response.body).toEqual({
+        error: { code: 'wrong_credentials', message: 'Wrong e-mail or password.' },
+      });
     }
-    const failures = await AuditEvent.query().where('action', 'auth.sign-in-failed').whereRaw("details->>'email' in (?, ?)", [
-      'sheliak@example.org',
-      'nobody@example.org',
-    ]);
+    const failures = await AuditEvent.query()
+      .where('action', 'auth.sign-in-failed')
+      .whereRaw("details->>'email' in (?, ?)", ['sheliak@example.org', 'nobody@example.org']);
     expect(failures).toHaveLength(2);
-    expect(failures.find((event) => event.targetId === user.id)?.details).toMatchObject({ reason: 'wrong password' });
+    expect(failures.find((event) => event.targetId === user.id)?.details).toMatchObject({
+      reason: 'wrong password',
+    });
   });
   it('answers 403 for a disabled account', async () => {
     await createUser(t.ctx, { email: 'sulafat@example.org', disabled: true });
-    const response = await new BrowserClient(t.app).post('/api/auth/login', { email: 'sulafat@example.org', password: testPassword });
+    const response = await new BrowserClient(t.app).post('/api/auth/login', {
+      email: 'sulafat@example.org',
+      password: testPassword,
+    });
     expect(response.status).toBe(403);
-    expect(response.body).toEqual(apiError('forbidden', 'This account is disabled. Ask an administrator to enable it again.'));
+    expect(response.body).toEqual(
+      apiError('forbidden', 'This account is disabled. Ask an administrator to enable it again.'),
+    );
   });
   it('signs out: the session ends and /me answers 401', async () => {
     const user = await createUser(t.ctx);
@@ -160,7 +190,9 @@ describe('sign-in and sign-out', () => {
     const me = await client.get('/api/auth/me');
     expect(me.status).toBe(401);
     expect(me.body).toEqual({ error: { code: 'unauthenticated', message: 'Sign in to continue.' } });
-    expect(await AuditEvent.query().where({ action: 'auth.sign-out', actorId: user.id }).resultSize()).toBe(1);
+    expect(await AuditEvent.query().where({ action: 'auth.sign-out', actorId: user.id }).resultSize()).toBe(
+      1,
+    );
   });
   it('/me answers 401 without a session', async () => {
     const response = await request(t.app).get('/api/auth/me').expect(401);
@@ -180,18 +212,30 @@ describe('own account', () => {
     const user = await createUser(t.ctx);
     const first = await signIn(t.app, user.email);
     const second = await signIn(t.app, user.email);
-    const wrong = await first.post('/api/auth/password', { currentPassword: 'not-it-at-all', newPassword: 'brand-new-password' });
+    const wrong = await first.post('/api/auth/password', {
+      currentPassword: 'not-it-at-all',
+      newPassword: 'brand-new-password',
+    });
     expect(wrong.status).toBe(400);
     expect(wrong.body).toEqual(apiError('bad_request', 'Your current password is not correct.'));
-    const short = await first.post('/api/auth/password', { currentPassword: testPassword, newPassword: 'short' });
+    const short = await first.post('/api/auth/password', {
+      currentPassword: testPassword,
+      newPassword: 'short',
+    });
     expect(short.status).toBe(400);
     expect(short.body.error.message).toBe('newPassword: Passwords must be at least 10 characters long.');
-    const ok = await first.post('/api/auth/password', { currentPassword: testPassword, newPassword: 'brand-new-password' });
+    const ok = await first.post('/api/auth/password', {
+      currentPassword: testPassword,
+      newPassword: 'brand-new-password',
+    });
     expect(ok.status).toBe(204);
     await first.get('/api/auth/me').expect(200);
     await second.get('/api/auth/me').expect(401);
     await signIn(t.app, user.email, 'brand-new-password');
-    const old = await new BrowserClient(t.app).post('/api/auth/login', { email: user.email, password: testPassword });
+    const old = await new BrowserClient(t.app).post('/api/auth/login', {
+      email: user.email,
+      password: testPassword,
+    });
     expect(old.status).toBe(401);
   });
 });

@@ -12,7 +12,14 @@ import { Invitation } from '../../server/models/invitation';
 import { Membership } from '../../server/models/membership';
 import { Project } from '../../server/models/project';
 import type { User } from '../../server/models/user';
-import { BrowserClient, createUser, signIn, startTestApp, type TestApp, TokenClient } from '../support/test-app';
+import {
+  BrowserClient,
+  createUser,
+  signIn,
+  startTestApp,
+  type TestApp,
+  TokenClient,
+} from '../support/test-app';
 
 let t: TestApp;
 let admin: User;
@@ -49,7 +56,11 @@ async function fixture(): Promise<Fixture> {
   const [owner, editor, viewer, target, newcomer] = await Promise.all(
     Array.from({ length: 5 }, () => createUser(t.ctx)),
   );
-  const project = await Project.query().insertAndFetch({ name: 'Matrix field', description: '', ownerId: owner!.id });
+  const project = await Project.query().insertAndFetch({
+    name: 'Matrix field',
+    description: '',
+    ownerId: owner!.id,
+  });
   await Membership.query().insert([
     { projectId: project.id, userId: owner!.id, role: 'owner' },
     { projectId: project.id, userId: editor!.id, role: 'editor' },
@@ -65,7 +76,15 @@ async function fixture(): Promise<Fixture> {
     expiresAt: new Date(Date.now() + 86_400_000),
     acceptedAt: null,
   });
-  return { project, owner: owner!, editor: editor!, viewer: viewer!, target: target!, newcomer: newcomer!, invitation };
+  return {
+    project,
+    owner: owner!,
+    editor: editor!,
+    viewer: viewer!,
+    target: target!,
+    newcomer: newcomer!,
+    invitation,
+  };
 }
 
 type Caller = Pick<BrowserClient, 'get' | 'post' | 'patch' | 'delete'>;
@@ -98,7 +117,15 @@ interface Action {
   verify?(f: Fixture, allowed: boolean): Promise<void>;
 }
 
-const readAll = { admin: 200, owner: 200, editor: 200, viewer: 200, 'non-member': 404, 'signed-out': 401, 'owner token': 200 };
+const readAll = {
+  admin: 200,
+  owner: 200,
+  editor: 200,
+  viewer: 200,
+  'non-member': 404,
+  'signed-out': 401,
+  'owner token': 200,
+};
 const ownerOnly = (ok: number) => ({
   admin: ok,
   owner: ok,
@@ -117,7 +144,9 @@ const actions: Action[] = [
     call: (c, f) => c.patch(`/api/projects/${f.project.id}`, { name: 'Renamed field' }),
     expected: ownerOnly(200),
     async verify(f, allowed) {
-      expect((await Project.query().findById(f.project.id))?.name).toBe(allowed ? 'Renamed field' : 'Matrix field');
+      expect((await Project.query().findById(f.project.id))?.name).toBe(
+        allowed ? 'Renamed field' : 'Matrix field',
+      );
     },
   },
   {
@@ -130,7 +159,8 @@ const actions: Action[] = [
   },
   {
     name: 'add member',
-    call: (c, f) => c.post(`/api/projects/${f.project.id}/members`, { email: f.newcomer.email, role: 'viewer' }),
+    call: (c, f) =>
+      c.post(`/api/projects/${f.project.id}/members`, { email: f.newcomer.email, role: 'viewer' }),
     expected: ownerOnly(201),
     async verify(f, allowed) {
       const row = await Membership.query().where({ projectId: f.project.id, userId: f.newcomer.id }).first();
@@ -155,7 +185,11 @@ const actions: Action[] = [
       expect(Boolean(row)).toBe(!allowed);
     },
   },
-  { name: 'list invitations', call: (c, f) => c.get(`/api/projects/${f.project.id}/invitations`), expected: ownerOnly(200) },
+  {
+    name: 'list invitations',
+    call: (c, f) => c.get(`/api/projects/${f.project.id}/invitations`),
+    expected: ownerOnly(200),
+  },
   {
     name: 'withdraw invitation',
     call: (c, f) => c.delete(`/api/projects/${f.project.id}/invitations/${f.invitation.id}`),
@@ -168,7 +202,15 @@ const actions: Action[] = [
     name: 'leave project',
     call: (c, f) => c.post(`/api/projects/${f.project.id}/leave`),
     // The only owner cannot leave (409); an admin who is not a member has nothing to leave (404).
-    expected: { admin: 404, owner: 409, editor: 204, viewer: 204, 'non-member': 404, 'signed-out': 401, 'owner token': 409 },
+    expected: {
+      admin: 404,
+      owner: 409,
+      editor: 204,
+      viewer: 204,
+      'non-member': 404,
+      'signed-out': 401,
+      'owner token': 409,
+    },
   },
 ];
 
@@ -212,15 +254,22 @@ describe('authorization matrix: role × project action', () => {
 
   it('lists only my projects; admins see all only with ?all=true; others cannot use ?all', async () => {
     const f = await fixture();
-    const ids = (response: request.Response) => (response.body as { id: number }[]).map((project) => project.id);
+    const ids = (response: request.Response) =>
+      (response.body as { id: number }[]).map((project) => project.id);
     expect(ids(await outsiderClient.get('/api/projects'))).not.toContain(f.project.id);
     expect(ids(await outsiderClient.get('/api/projects?all=true'))).not.toContain(f.project.id);
     expect(ids(await adminClient.get('/api/projects'))).not.toContain(f.project.id);
     const all = await adminClient.get('/api/projects?all=true');
     expect(ids(all)).toContain(f.project.id);
-    expect((all.body as { id: number; myRole: string | null }[]).find((p) => p.id === f.project.id)?.myRole).toBeNull();
+    expect(
+      (all.body as { id: number; myRole: string | null }[]).find((p) => p.id === f.project.id)?.myRole,
+    ).toBeNull();
     const viewer = await signIn(t.app, f.viewer.email);
-    const mine = (await viewer.get('/api/projects')).body as { id: number; myRole: string; memberCount: number }[];
+    const mine = (await viewer.get('/api/projects')).body as {
+      id: number;
+      myRole: string;
+      memberCount: number;
+    }[];
     expect(mine).toEqual([expect.objectContaining({ id: f.project.id, myRole: 'viewer', memberCount: 4 })]);
     expect((await request(t.app).get('/api/projects')).status).toBe(401);
   });
@@ -232,7 +281,9 @@ describe('authorization matrix: role × project action', () => {
     for (const path of adminPaths) {
       const member = await outsiderClient.get(path);
       expect(member.status, path).toBe(403);
-      expect(member.body).toEqual({ error: { code: 'forbidden', message: 'Only administrators can do this.' } });
+      expect(member.body).toEqual({
+        error: { code: 'forbidden', message: 'Only administrators can do this.' },
+      });
       expect((await request(t.app).get(path)).status, path).toBe(401);
       expect((await new TokenClient(t.app, token).get(path)).status, path).toBe(403);
     }

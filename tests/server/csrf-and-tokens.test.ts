@@ -16,7 +16,8 @@ afterAll(async () => {
   await t.close();
 });
 
-const csrfMessage = 'The security token of this page is missing or out of date. Reload the page and try again.';
+const csrfMessage =
+  'The security token of this page is missing or out of date. Reload the page and try again.';
 
 describe('CSRF protection of cookie sessions', () => {
   it('refuses a state-changing cookie request without the x-csrf-token header (403)', async () => {
@@ -32,7 +33,10 @@ describe('CSRF protection of cookie sessions', () => {
     const clientB = await signIn(t.app, b.email);
     const tokenOfB = await clientB.csrfToken();
     for (const token of ['garbage', tokenOfB]) {
-      const response = await clientA.agent.post('/api/projects').set('x-csrf-token', token).send({ name: 'Forged' });
+      const response = await clientA.agent
+        .post('/api/projects')
+        .set('x-csrf-token', token)
+        .send({ name: 'Forged' });
       expect(response.status).toBe(403);
       expect(response.body.error.code).toBe('csrf_invalid');
     }
@@ -74,7 +78,9 @@ describe('personal API tokens', () => {
     expect(JSON.stringify(row)).not.toContain(token.token);
 
     const list = await client.get('/api/tokens').expect(200);
-    expect(list.body).toEqual([{ id: token.id, name: 'pipeline', prefix: token.prefix, createdAt: token.createdAt, lastUsedAt: null }]);
+    expect(list.body).toEqual([
+      { id: token.id, name: 'pipeline', prefix: token.prefix, createdAt: token.createdAt, lastUsedAt: null },
+    ]);
     expect(JSON.stringify(list.body)).not.toContain(token.token);
 
     const bearer = new TokenClient(t.app, token.token);
@@ -86,7 +92,10 @@ describe('personal API tokens', () => {
     const refused = await bearer.get('/api/auth/me');
     expect(refused.status).toBe(401);
     expect(refused.body).toEqual(
-      apiError('unauthenticated', 'This API token is not valid (revoked, mistyped or its account is disabled).'),
+      apiError(
+        'unauthenticated',
+        'This API token is not valid (revoked, mistyped or its account is disabled).',
+      ),
     );
   });
   it('lets Bearer requests change state without CSRF and without a cookie', async () => {
@@ -140,7 +149,9 @@ describe('request errors', () => {
       .set('content-type', 'application/json')
       .send('{"name": ');
     expect(response.status).toBe(400);
-    expect(response.body).toEqual({ error: { code: 'validation_failed', message: 'The request body is not valid JSON.' } });
+    expect(response.body).toEqual({
+      error: { code: 'validation_failed', message: 'The request body is not valid JSON.' },
+    });
   });
   it('answers 413 for a JSON body over 1 MB', async () => {
     const response = await request(t.app)
@@ -148,7 +159,9 @@ describe('request errors', () => {
       .set('content-type', 'application/json')
       .send(JSON.stringify({ email: 'x'.repeat(1_100_000), password: 'y' }));
     expect(response.status).toBe(413);
-    expect(response.body).toEqual({ error: { code: 'payload_too_large', message: 'The request body is too large.' } });
+    expect(response.body).toEqual({
+      error: { code: 'payload_too_large', message: 'The request body is too large.' },
+    });
   });
   it('answers 400 with zod details for a non-numeric id', async () => {
     const user = await createUser(t.ctx);
@@ -158,4 +171,3 @@ describe('request errors', () => {
     expect(response.body.error.details.issues[0].path).toEqual(['id']);
   });
 });
-

@@ -79,9 +79,15 @@ describe('OpenAPI document', () => {
     const document = (await request(t.app).get('/api/openapi.json')).body as OpenApiDocument;
     const signup = document.paths['/api/auth/signup']?.post;
     expect(JSON.stringify(signup?.requestBody)).toContain('"displayName"');
-    expect(Object.keys(signup?.responses ?? {})).toEqual(expect.arrayContaining(['201', '400', '403', '409', '429']));
+    expect(Object.keys(signup?.responses ?? {})).toEqual(
+      expect.arrayContaining(['201', '400', '403', '409', '429']),
+    );
     const addMember = document.paths['/api/projects/{id}/members']?.post;
-    expect(Object.keys(addMember?.responses ?? {})).toEqual(expect.arrayContaining(['201', '202', '401', '403', '404', '409']));
-    expect(JSON.stringify(document.paths['/api/projects/{id}']?.get?.responses['200'])).toContain('"members"');
+    expect(Object.keys(addMember?.responses ?? {})).toEqual(
+      expect.arrayContaining(['201', '202', '401', '403', '404', '409']),
+    );
+    expect(JSON.stringify(document.paths['/api/projects/{id}']?.get?.responses['200'])).toContain(
+      '"members"',
+    );
   });
 });

@@ -26,7 +26,9 @@ describe('password reset', () => {
   it('mails a link; the token sets a new password once, ends every session, and is stored hashed', async () => {
     const user = await createUser(t.ctx, { email: 'forgetful@example.org' });
     const oldSession = await signIn(t.app, user.email);
-    const request = await new BrowserClient(t.app).post('/api/auth/password-reset/request', { email: 'Forgetful@example.org' });
+    const request = await new BrowserClient(t.app).post('/api/auth/password-reset/request', {
+      email: 'Forgetful@example.org',
+    });
     expect(request.status).toBe(202);
     const mails = await mailTo(t.ctx, 'forgetful@example.org');
     expect(mails).toHaveLength(1);
@@ -40,39 +42,61 @@ describe('password reset', () => {
     expect(minutes).toBeGreaterThan(59);
     expect(minutes).toBeLessThanOrEqual(60);
 
-    const confirm = await new BrowserClient(t.app).post('/api/auth/password-reset/confirm', { token, password: 'remembered-now-1' });
+    const confirm = await new BrowserClient(t.app).post('/api/auth/password-reset/confirm', {
+      token,
+      password: 'remembered-now-1',
+    });
     expect(confirm.status).toBe(204);
     expect((await oldSession.get('/api/auth/me')).status).toBe(401);
     await signIn(t.app, user.email, 'remembered-now-1');
 
-    const reuse = await new BrowserClient(t.app).post('/api/auth/password-reset/confirm', { token, password: 'another-password-2' });
+    const reuse = await new BrowserClient(t.app).post('/api/auth/password-reset/confirm', {
+      token,
+      password: 'another-password-2',
+    });
     expect(reuse.status).toBe(400);
     expect(reuse.body).toEqual({
-      error: { code: 'bad_request', message: 'This reset link is not valid or was already used. Ask for a new one.' },
+      error: {
+        code: 'bad_request',
+        message: 'This reset link is not valid or was already used. Ask for a new one.',
+      },
     });
   });
   it('refuses an expired link with its own message', async () => {
     const user = await createUser(t.ctx, { email: 'slow@example.org' });
     await new BrowserClient(t.app).post('/api/auth/password-reset/request', { email: user.email });
     const token = await resetTokenFromMail(user.email);
-    await PasswordReset.query().patch({ expiresAt: new Date(Date.now() - 1000) }).where('userId', user.id);
-    const response = await new BrowserClient(t.app).post('/api/auth/password-reset/confirm', { token, password: 'too-late-password' });
+    await PasswordReset.query()
+      .patch({ expiresAt: new Date(Date.now() - 1000) })
+      .where('userId', user.id);
+    const response = await new BrowserClient(t.app).post('/api/auth/password-reset/confirm', {
+      token,
+      password: 'too-late-password',
+    });
     expect(response.status).toBe(400);
     expect(response.body.error.message).toBe('This reset link has expired. Ask for a new one.');
   });
   it('answers 202 for an unknown address and sends nothing (no account enumeration)', async () => {
-    const response = await new BrowserClient(t.app).post('/api/auth/password-reset/request', { email: 'ghost@example.org' });
+    const response = await new BrowserClient(t.app).post('/api/auth/password-reset/request', {
+      email: 'ghost@example.org',
+    });
     expect(response.status).toBe(202);
     expect(response.body).toEqual({});
     expect(await mailTo(t.ctx, 'ghost@example.org')).toHaveLength(0);
   });
   it('sends nothing to a disabled account', async () => {
     await createUser(t.ctx, { email: 'off@example.org', disabled: true });
-    expect((await new BrowserClient(t.app).post('/api/auth/password-reset/request', { email: 'off@example.org' })).status).toBe(202);
+    expect(
+      (await new BrowserClient(t.app).post('/api/auth/password-reset/request', { email: 'off@example.org' }))
+        .status,
+    ).toBe(202);
     expect(await mailTo(t.ctx, 'off@example.org')).toHaveLength(0);
   });
   it('checks the new password length', async () => {
-    const response = await new BrowserClient(t.app).post('/api/auth/password-reset/confirm', { token: 'whatever', password: 'short' });
+    const response = await new BrowserClient(t.app).post('/api/auth/password-reset/confirm', {
+      token: 'whatever',
+      password: 'short',
+    });
     expect(response.status).toBe(400);
     expect(response.body.error.message).toBe('password: Passwords must be at least 10 characters long.');
   });
@@ -86,11 +110,17 @@ describe('rate limits', () => {
       for (let i = 0; i < 5; i++) await signIn(limited.app, user.email);
       const statuses: number[] = [];
       for (let i = 0; i < 4; i++) {
-        const response = await new BrowserClient(limited.app).post('/api/auth/login', { email: user.email, password: 'wrong-password' });
+        const response = await new BrowserClient(limited.app).post('/api/auth/login', {
+          email: user.email,
+          password: 'wrong-password',
+        });
         statuses.push(response.status);
         if (response.status === 429) {
           expect(response.body).toEqual({
-            error: { code: 'rate_limited', message: 'Too many failed sign-in attempts. Wait 15 minutes and try again.' },
+            error: {
+              code: 'rate_limited',
+              message: 'Too many failed sign-in attempts. Wait 15 minutes and try again.',
+            },
           });
         }
       }
@@ -104,7 +134,9 @@ describe('rate limits', () => {
     try {
       const statuses: number[] = [];
       for (let i = 0; i < 3; i++) {
-        const response = await new BrowserClient(limited.app).post('/api/auth/password-reset/request', { email: 'a@example.org' });
+        const response = await new BrowserClient(limited.app).post('/api/auth/password-reset/request', {
+          email: 'a@example.org',
+        });
         statuses.push(response.status);
       }
       expect(statuses).toEqual([202, 202, 429]);

@@ -21,7 +21,11 @@ afterAll(async () => {
   await t.close();
 });
 
-async function inviteTo(projectName: string, email: string, role: 'viewer' | 'editor'): Promise<{ projectId: number; token: string }> {
+async function inviteTo(
+  projectName: string,
+  email: string,
+  role: 'viewer' | 'editor',
+): Promise<{ projectId: number; token: string }> {
   const project = (await ownerClient.post('/api/projects', { name: projectName })).body as { id: number };
   const response = await ownerClient.post(`/api/projects/${project.id}/members`, { email, role });
   expect(response.status).toBe(202);
@@ -57,10 +61,17 @@ describe('invitations of addresses without an account', () => {
   it('shows what an invitation link invites to, and 404 for an unknown token', async () => {
     const { token } = await inviteTo('Preview field', 'preview@example.org', 'editor');
     const response = await request(t.app).get(`/api/auth/invitations/${token}`).expect(200);
-    expect(response.body).toMatchObject({ email: 'preview@example.org', projectName: 'Preview field', invitedBy: 'Ines Inviter', role: 'editor' });
+    expect(response.body).toMatchObject({
+      email: 'preview@example.org',
+      projectName: 'Preview field',
+      invitedBy: 'Ines Inviter',
+      role: 'editor',
+    });
     const unknown = await request(t.app).get('/api/auth/invitations/not-a-token');
     expect(unknown.status).toBe(404);
-    expect(unknown.body).toEqual({ error: { code: 'not_found', message: 'This invitation is not valid any more.' } });
+    expect(unknown.body).toEqual({
+      error: { code: 'not_found', message: 'This invitation is not valid any more.' },
+    });
   });
   it('with registration closed, lets exactly the invited address sign up with its token', async () => {
     const { projectId, token } = await inviteTo('Closed field', 'closed-invitee@example.org', 'viewer');
@@ -84,9 +95,15 @@ describe('invitations of addresses without an account', () => {
   });
   it('ignores expired invitations on sign-up', async () => {
     const { projectId } = await inviteTo('Expired field', 'late@example.org', 'viewer');
-    await Invitation.query().patch({ expiresAt: new Date(Date.now() - 1000) }).where('projectId', projectId);
+    await Invitation.query()
+      .patch({ expiresAt: new Date(Date.now() - 1000) })
+      .where('projectId', projectId);
     const client = new BrowserClient(t.app);
-    await client.post('/api/auth/signup', { email: 'late@example.org', displayName: 'Late', password: 'a-long-enough-password' });
+    await client.post('/api/auth/signup', {
+      email: 'late@example.org',
+      displayName: 'Late',
+      password: 'a-long-enough-password',
+    });
     expect((await client.get(`/api/projects/${projectId}`)).status).toBe(404);
   });
 });

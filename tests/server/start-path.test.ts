@@ -15,14 +15,29 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { checkPassword } from '../../server/auth/secrets';
 import { createKnex, migrateLatest, migrateRollbackAll } from '../../server/db/knex';
 import { startLocalCluster } from '../../server/db/local-cluster';
-import { clusterExists, findPostgresBinaries, portIsOpen, findFreePort } from '../../server/db/postgres-cluster';
+import {
+  clusterExists,
+  findPostgresBinaries,
+  portIsOpen,
+  findFreePort,
+} from '../../server/db/postgres-cluster';
 import { prepareDatabase } from '../../server/db/prepare';
 import { demoAccounts, demoProject } from '../../server/db/seed';
 import { createThrowawayCluster } from '../../server/db/throwaway-cluster';
 import { createEmptyDatabase, type TestDatabase } from '../support/test-database';
 import { testConfig } from '../support/test-app';
 
-const tables = ['users', 'projects', 'memberships', 'invitations', 'api_tokens', 'password_resets', 'audit_events', 'dev_mail', 'session'];
+const tables = [
+  'users',
+  'projects',
+  'memberships',
+  'invitations',
+  'api_tokens',
+  'password_resets',
+  'audit_events',
+  'dev_mail',
+  'session',
+];
 
 async function rowCounts(knex: Knex): Promise<Record<string, number>> {
   const counts: Record<string, number> = {};
@@ -46,7 +61,10 @@ describe('start path: migrate, seed, admin bootstrap', () => {
   });
 
   it('is idempotent: the second start applies no migration and changes no row', async () => {
-    const config = testConfig({ adminEmail: 'first-admin@example.org', adminPassword: 'first-admin-password' });
+    const config = testConfig({
+      adminEmail: 'first-admin@example.org',
+      adminPassword: 'first-admin-password',
+    });
     const first = await prepareDatabase(db.url, config, { seed: true });
     expect(first.appliedMigrations.length).toBeGreaterThanOrEqual(8);
     expect(first.seed).toEqual({ createdUsers: 3, createdProject: true, createdMemberships: 2 });
@@ -102,14 +120,18 @@ describe('migrations', () => {
     const knex = createKnex(db.url, { min: 0, max: 1 });
     const userTables = async () =>
       (
-        await knex.raw<{ rows: { tablename: string }[] }>("select tablename from pg_tables where schemaname = 'public' order by 1")
+        await knex.raw<{ rows: { tablename: string }[] }>(
+          "select tablename from pg_tables where schemaname = 'public' order by 1",
+        )
       ).rows.map((row) => row.tablename);
     try {
       const applied = await migrateLatest(knex);
       expect((await userTables()).filter((name) => tables.includes(name)).sort()).toEqual([...tables].sort());
       await migrateRollbackAll(knex);
       expect(await userTables()).toEqual(['knex_migrations', 'knex_migrations_lock']);
-      const indexes = await knex.raw<{ rows: unknown[] }>("select indexname from pg_indexes where schemaname = 'public' and tablename not like 'knex%'");
+      const indexes = await knex.raw<{ rows: unknown[] }>(
+        "select indexname from pg_indexes where schemaname = 'public' and tablename not like 'knex%'",
+      );
       expect(indexes.rows).toEqual([]);
       expect(await migrateLatest(knex)).toEqual(applied);
     } finally {
@@ -151,7 +173,9 @@ describe('PostgreSQL cluster helpers', () => {
       expect(clusterExists(cluster.dataDir)).toBe(true);
       const client = new pg.Client({ connectionString: cluster.url() });
       await client.connect();
-      const { rows } = await client.query<{ address: string | null }>('select inet_server_addr()::text as address');
+      const { rows } = await client.query<{ address: string | null }>(
+        'select inet_server_addr()::text as address',
+      );
       await client.end();
       expect(rows[0]?.address).toMatch(/^127\.0\.0\.1/);
     } finally {
@@ -168,12 +192,18 @@ describe('PostgreSQL cluster helpers', () => {
     try {
       const first = await startLocalCluster(binaries, root, port);
       expect(first).toMatchObject({ created: true, startedHere: true });
-      expect(first.databaseUrl).toMatch(new RegExp(`^postgresql://skysieve:[^@]+@127\\.0\\.0\\.1:${port}/skysieve$`));
+      expect(first.databaseUrl).toMatch(
+        new RegExp(`^postgresql://skysieve:[^@]+@127\\.0\\.0\\.1:${port}/skysieve$`),
+      );
       const client = new pg.Client({ connectionString: first.databaseUrl });
       await client.connect();
-      expect((await client.query<{ user: string }>('select current_user as user')).rows[0]?.user).toBe('skysieve');
+      expect((await client.query<{ user: string }>('select current_user as user')).rows[0]?.user).toBe(
+        'skysieve',
+      );
       await client.end();
-      const wrong = new pg.Client({ connectionString: first.databaseUrl.replace(/:[^:@]+@/, ':wrong-password@') });
+      const wrong = new pg.Client({
+        connectionString: first.databaseUrl.replace(/:[^:@]+@/, ':wrong-password@'),
+      });
       await expect(wrong.connect()).rejects.toThrow(/password authentication failed/);
       await first.stop();
       expect(await portIsOpen(port)).toBe(false);

@@ -28,7 +28,12 @@ export interface TestApp {
 export const silentLogger = { info: () => undefined, error: () => undefined };
 
 export function testConfig(overrides: Partial<Config> = {}): Config {
-  const base = loadConfig({ NODE_ENV: 'test', BCRYPT_ROUNDS: '4', DEV_MAIL: '1', PUBLIC_URL: 'http://skysieve.test' });
+  const base = loadConfig({
+    NODE_ENV: 'test',
+    BCRYPT_ROUNDS: '4',
+    DEV_MAIL: '1',
+    PUBLIC_URL: 'http://skysieve.test',
+  });
   return { ...base, ...overrides };
 }
 
@@ -36,7 +41,10 @@ export function testConfig(overrides: Partial<Config> = {}): Config {
 export async function startTestApp(overrides: Partial<Config> = {}, shared?: TestDatabase): Promise<TestApp> {
   const db = shared ?? (await createTestDatabase());
   const config = testConfig({ ...overrides, databaseUrl: db.url });
-  const runtime = await startRuntime(config, { sessionSecret: 'test-session-secret-0123456789', logger: silentLogger });
+  const runtime = await startRuntime(config, {
+    sessionSecret: 'test-session-secret-0123456789',
+    logger: silentLogger,
+  });
   const built = createApp(runtime.ctx, { clientDirectory: '/nonexistent' });
   return {
     app: built.app,
@@ -65,15 +73,24 @@ export class BrowserClient {
   }
   async post(path: string, body?: object) {
     const token = await this.csrfToken();
-    return this.agent.post(path).set('x-csrf-token', token).send(body ?? {});
+    return this.agent
+      .post(path)
+      .set('x-csrf-token', token)
+      .send(body ?? {});
   }
   async patch(path: string, body?: object) {
     const token = await this.csrfToken();
-    return this.agent.patch(path).set('x-csrf-token', token).send(body ?? {});
+    return this.agent
+      .patch(path)
+      .set('x-csrf-token', token)
+      .send(body ?? {});
   }
   async delete(path: string, body?: object) {
     const token = await this.csrfToken();
-    return this.agent.delete(path).set('x-csrf-token', token).send(body ?? {});
+    return this.agent
+      .delete(path)
+      .set('x-csrf-token', token)
+      .send(body ?? {});
   }
 }
 
@@ -87,13 +104,22 @@ export class TokenClient {
     return request(this.app).get(path).set('authorization', `Bearer ${this.token}`);
   }
   post(path: string, body?: object) {
-    return request(this.app).post(path).set('authorization', `Bearer ${this.token}`).send(body ?? {});
+    return request(this.app)
+      .post(path)
+      .set('authorization', `Bearer ${this.token}`)
+      .send(body ?? {});
   }
   patch(path: string, body?: object) {
-    return request(this.app).patch(path).set('authorization', `Bearer ${this.token}`).send(body ?? {});
+    return request(this.app)
+      .patch(path)
+      .set('authorization', `Bearer ${this.token}`)
+      .send(body ?? {});
   }
   delete(path: string, body?: object) {
-    return request(this.app).delete(path).set('authorization', `Bearer ${this.token}`).send(body ?? {});
+    return request(this.app)
+      .delete(path)
+      .set('authorization', `Bearer ${this.token}`)
+      .send(body ?? {});
   }
 }
 
@@ -103,7 +129,9 @@ let userCounter = 0;
 /** Inserts an account directly (fast); returns the model. */
 export async function createUser(
   ctx: AppContext,
-  fields: Partial<Pick<User, 'email' | 'displayName' | 'role' | 'disabled' | 'quotaBytes'>> & { password?: string } = {},
+  fields: Partial<Pick<User, 'email' | 'displayName' | 'role' | 'disabled' | 'quotaBytes'>> & {
+    password?: string;
+  } = {},
 ): Promise<User> {
   userCounter++;
   return User.query().insertAndFetch({
@@ -121,15 +149,20 @@ export async function createUser(
 export async function signIn(app: Express, email: string, password = testPassword): Promise<BrowserClient> {
   const client = new BrowserClient(app);
   const response = await client.post('/api/auth/login', { email, password });
-  if (response.status !== 200) throw new Error(`Sign-in of ${email} failed: ${response.status} ${JSON.stringify(response.body)}`);
+  if (response.status !== 200)
+    throw new Error(`Sign-in of ${email} failed: ${response.status} ${JSON.stringify(response.body)}`);
   return client;
 }
 
 /** Every message the dev SMTP receiver stored for `address`, oldest first, after pending sends finished. */
 export async function mailTo(ctx: AppContext, address: string): Promise<DevMail[]> {
   await ctx.mailer.idle();
-  return DevMail.query().whereRaw('lower(envelope_to) like ?', [`%${address.toLowerCase()}%`]).orderBy('id');
+  return DevMail.query()
+    .whereRaw('lower(envelope_to) like ?', [`%${address.toLowerCase()}%`])
+    .orderBy('id');
 }
 
 /** The error body the API answers. */
-export const apiError = (code: string, message: string) => ({ error: expect.objectContaining({ code, message }) });
+export const apiError = (code: string, message: string) => ({
+  error: expect.objectContaining({ code, message }),
+});

@@ -63,6 +63,9 @@ async function createDatabase(prefix: string, template: string | undefined): Pro
   return {
     name,
     url: testPostgresUrl(name),
-    drop: () => withSuperuser(async (client) => void (await client.query(`drop database if exists ${name} with (force)`))),
+    drop: () =>
+      withSuperuser(
+        async (client) => void (await client.query(`drop database if exists ${name} with (force)`)),
+      ),
   };
 }

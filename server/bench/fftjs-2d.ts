@@ -106,5 +106,9 @@ export class FftJsRealFft2d implements RealFft2d {
     }
   }
 
+  whenReady(): Promise<boolean> {
+    return Promise.resolve(true);
+  }
+
   dispose(): void {}
 }

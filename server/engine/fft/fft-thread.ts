@@ -60,6 +60,15 @@ export class FftThread {
     return !this.failed && Atomics.load(this.control, 3) === 1;
   }
 
+  /** Resolves true when ready, false when the worker failed or did not start within `timeoutMs`. */
+  async whenReady(timeoutMs = 30_000): Promise<boolean> {
+    const start = Date.now();
+    while (!this.ready && !this.failed && Date.now() - start < timeoutMs) {
+      await new Promise((resolve) => setTimeout(resolve, 10));
+    }
+    return this.ready;
+  }
+
   /** Posts a command to the worker (call only when ready); pair every call with one finish(). */
   start(command: number): void {
     Atomics.store(this.control, 2, command);

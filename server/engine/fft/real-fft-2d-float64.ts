@@ -124,6 +124,10 @@ export class RealFft2dFloat64 implements RealFft2d {
     output.set(this.image.subarray(rowSplit * width), rowSplit * width);
   }
 
+  whenReady(): Promise<boolean> {
+    return this.thread === null ? Promise.resolve(true) : this.thread.whenReady();
+  }
+
   dispose(): void {
     this.thread?.dispose();
   }

@@ -22,6 +22,12 @@ export interface RealFft2d {
    * and, for even height, ky = height/2) are not checked.
    */
   inverse(inRe: Float64Array, inIm: Float64Array, output: Float64Array): void;
+  /**
+   * Resolves true once every thread asked for is running (at once for one thread), false if the worker could not
+   * start (the transform then runs on the calling thread alone). Transforms called before that are still correct:
+   * they simply run on the calling thread.
+   */
+  whenReady(): Promise<boolean>;
   /** Releases worker threads and WASM memory; the object must not be used afterwards. */
   dispose(): void;
 }

@@ -3,16 +3,10 @@ import { describe, expect, it } from 'vitest';
 import { createRealFft2d, type FftPrecision, type RealFft2d } from '../../../server/engine/fft';
 import { maxAbsDifference, randomArray } from './reference';
 
-/** The worker starts in the background; poll its readiness through a transform's implementation-independent state. */
-async function untilWorkerReady(fft: RealFft2d, timeoutMs = 30_000): Promise<boolean> {
-  const start = Date.now();
-  const thread = (fft as unknown as { thread: { ready: boolean } | null }).thread;
-  while (thread !== null && !thread.ready && Date.now() - start < timeoutMs) {
-    await new Promise((resolve) => setTimeout(resolve, 25));
-  }
-  return thread?.ready ?? false;
+/** The worker starts in the background: wait for it so the two-thread path is the one tested. */
+async function untilWorkerReady(fft: RealFft2d): Promise<boolean> {
+  return fft.whenReady();
 }
-
 describe('two-thread transforms (persistent worker, shared memory)', () => {
   it.each<[FftPrecision, number, number]>([
     ['float32', 96, 64],

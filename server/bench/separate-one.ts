@@ -1,0 +1,89 @@
+/**
+ * One size of the separation bench, run in its own process (server/bench/index.ts starts it) so that peak memory
+ * and JIT state belong to this size alone. Prints one JSON line on stdout:
+ *   npx tsx server/bench/separate-one.ts SIZE REPEAT
+ * The sky: samples/sky-simulator.ts, SIZE × SIZE, circular 3.5-pixel PSF, log-normal diffuse emission at ~5σ,
+ * one point source per 2000 pixels from SNR 3 to 300, Gaussian noise, fixed seed.
+ */
+import { createRealFft2d } from '../engine/fft';
+import { separate } from '../engine/separate';
+import { isolatedFluxError, simulateSky } from '../../samples/sky-simulator';
+import { psfFromFwhm } from '../engine/psf';
+import { MemorySampler } from './memory-sampler';
+import { nowMs } from './stats';
+import { timeFftPair } from './fft';
+
+export interface SeparationBenchRow {
+  size: number;
+  repeat: number;
+  paddedWidth: number;
+  paddedHeight: number;
+  wallSeconds: number[];
+  fitSeconds: number[];
+  iterations: number;
+  evaluations: number;
+  sources: number;
+  converged: boolean;
+  fftImplementation: string;
+  fftPairMs: number;
+  peakRssBytes: number;
+  maxRssBytes: number;
+}
+
+const size = Number(process.argv[2]);
+const repeat = Number(process.argv[3] ?? 1);
+if (!Number.isInteger(size) || size < 16 || !Number.isInteger(repeat) || repeat < 1) {
+  process.stderr.write('usage: separate-one.ts SIZE REPEAT\n');
+  process.exit(1);
+}
+
+const sampler = new MemorySampler();
+const sigma = 1;
+const fwhm = 3.5;
+const fluxError = isolatedFluxError(psfFromFwhm(fwhm, fwhm, 0), sigma);
+const sky = simulateSky({
+  width: size,
+  height: size,
+  seed: 4242 + size,
+  psf: { fwhmMajorPx: fwhm, fwhmMinorPx: fwhm, paDeg: 0 },
+  diffuse: { level: 5 * sigma, logStd: 0.8, slope: 3.5 },
+  sources: { count: Math.round((size * size) / 2000), minFlux: 3 * fluxError, maxFlux: 300 * fluxError },
+  noise: { kind: 'gaussian', sigma },
+  wcs: { projection: 'TAN', raDeg: 283.75, decDeg: 38.6, pixelArcsec: 1.5 },
+  unit: 'Jy/beam',
+});
+const image = { width: size, height: size, data: sky.image, mask: sky.mask, unit: 'Jy/beam' };
+const settings = { psf: { fwhmMajor: fwhm, fwhmMinor: fwhm, pa: 0 } };
+
+const wall: number[] = [];
+const fit: number[] = [];
+let last: Awaited<ReturnType<typeof separate>> | null = null;
+for (let i = 0; i < repeat; i++) {
+  const t0 = nowMs();
+  last = await separate(image, settings);
+  wall.push((nowMs() - t0) / 1000);
+  fit.push(last.timings.fit / 1000);
+}
+const result = last!;
+// The FFT pair at the padded size, with the options the fit uses (the engine's defaults), in this process.
+const fft = createRealFft2d(result.paddedSize.width, result.paddedSize.height);
+const pair = timeFftPair(fft, Math.max(5, Math.min(15, Math.round(2e7 / (size * size)))));
+fft.dispose();
+const row: SeparationBenchRow = {
+  size,
+  repeat,
+  paddedWidth: result.paddedSize.width,
+  paddedHeight: result.paddedSize.height,
+  wallSeconds: wall,
+  fitSeconds: fit,
+  iterations: result.iterations,
+  evaluations: result.evaluations,
+  sources: result.catalogue.length,
+  converged: result.converged,
+  fftImplementation: fft.implementation,
+  fftPairMs: pair.medianMs,
+  peakRssBytes: sampler.peakBytes,
+  maxRssBytes: process.resourceUsage().maxRSS * 1024,
+};
+await sampler.stop();
+process.stdout.write(`${JSON.stringify(row)}\n`);

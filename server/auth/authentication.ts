@@ -161,6 +161,8 @@ export function createAuthentication(ctx: AppContext): Authentication {
       return csrf.generateCsrfToken(req, res);
     },
     async close() {
+      // Stops the store's expired-session pruning timer, then the pool it used.
+      await store.close();
       await pool.end();
     },
   };

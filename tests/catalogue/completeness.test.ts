@@ -244,6 +244,7 @@ describe('matching injected sources and per-level statistics', () => {
       // ⟨psf(·), psf(· − δ)⟩/Σpsf², ≤ 4 % for |δ| ≤ 0.5 px at FWHM 3 px; the 3σ interval covers that.
       const expected = normal.cdf(snrLevels[k]! - 5, 0, 1);
       const message = `SNR ${snrLevels[k]}: expected ${expected.toFixed(3)}, measured ${result.completeness.toFixed(3)} [${result.completenessLow.toFixed(3)}, ${result.completenessHigh.toFixed(3)}]`;
+      console.info(message);
       expect(
         expected >= result.completenessLow - 0.03 && expected <= result.completenessHigh + 0.03,
         message,

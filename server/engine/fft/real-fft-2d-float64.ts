@@ -23,6 +23,8 @@ import type { RealFft2d } from './types';
 
 /** Columns per block in the column pass: 32 columns × height complex values stay in the L2 cache. */
 const COLUMN_BLOCK = 32;
+/** Row pairs per batched row transform (the same cache budget: 16 pairs × width complex values). */
+const ROW_PAIRS = 16;
 
 export class RealFft2dFloat64 implements RealFft2d {
   readonly spectrumWidth: number;
@@ -51,10 +53,10 @@ export class RealFft2dFloat64 implements RealFft2d {
     this.spectrumWidth = Math.floor(width / 2) + 1;
     this.rowPlan = createComplexPlan(width);
     this.columnPlan = createComplexPlan(height);
-    this.zRe = new Float64Array(width);
-    this.zIm = new Float64Array(width);
-    this.rowWorkRe = new Float64Array(width);
-    this.rowWorkIm = new Float64Array(width);
+    this.zRe = new Float64Array(width * ROW_PAIRS);
+    this.zIm = new Float64Array(width * ROW_PAIRS);
+    this.rowWorkRe = new Float64Array(width * ROW_PAIRS);
+    this.rowWorkIm = new Float64Array(width * ROW_PAIRS);
     this.columnWorkRe = new Float64Array(height * COLUMN_BLOCK);
     this.columnWorkIm = new Float64Array(height * COLUMN_BLOCK);
     this.implementation = `typescript-float64${threads === 2 ? '-2-threads' : ''}`;
@@ -132,29 +134,56 @@ export class RealFft2dFloat64 implements RealFft2d {
     this.thread?.dispose();
   }
 
-  /** Row transforms of rows [y0, y1) (y0 even) of `input` into the half spectrum rows of out. */
+  /**
+   * Row transforms of rows [y0, y1) (y0 even) of `input` into the half-spectrum rows of out. Up to ROW_PAIRS
+   * row pairs go through one batched complex transform (layout: position · pairs + pair), so the inner loops
+   * run over contiguous memory as in the column pass.
+   */
   forwardRows(input: Float64Array, outRe: Float64Array, outIm: Float64Array, y0: number, y1: number): void {
     const { width, spectrumWidth, zRe, zIm } = this;
-    for (let y = y0; y < y1; y += 2) {
-      const paired = y + 1 < y1;
-      const a = y * width;
-      for (let x = 0; x < width; x++) zRe[x] = input[a + x]!;
-      if (paired) for (let x = 0; x < width; x++) zIm[x] = input[a + width + x]!;
-      else zIm.fill(0);
-      complexForward(this.rowPlan, 1, zRe, zIm, 0, 1, zRe, zIm, 0, 1, this.rowWorkRe, this.rowWorkIm);
-      const ra = y * spectrumWidth;
-      const rb = ra + spectrumWidth;
-      for (let k = 0; k < spectrumWidth; k++) {
-        const kk = k === 0 ? 0 : width - k;
-        const pr = zRe[k]!,
-          pi = zIm[k]!,
-          cr = zRe[kk]!,
-          ci = zIm[kk]!;
-        outRe[ra + k] = 0.5 * (pr + cr);
-        outIm[ra + k] = 0.5 * (pi - ci);
-        if (paired) {
-          outRe[rb + k] = 0.5 * (pi + ci);
-          outIm[rb + k] = -0.5 * (pr - cr);
+    for (let y = y0; y < y1; y += 2 * ROW_PAIRS) {
+      const pairs = Math.min(ROW_PAIRS, Math.ceil((y1 - y) / 2));
+      for (let b = 0; b < pairs; b++) {
+        const ya = y + 2 * b;
+        const a = ya * width;
+        const paired = ya + 1 < y1;
+        for (let x = 0; x < width; x++) {
+          zRe[x * pairs + b] = input[a + x]!;
+          zIm[x * pairs + b] = paired ? input[a + width + x]! : 0;
+        }
+      }
+      complexForward(
+        this.rowPlan,
+        pairs,
+        zRe,
+        zIm,
+        0,
+        pairs,
+        zRe,
+        zIm,
+        0,
+        pairs,
+        this.rowWorkRe,
+        this.rowWorkIm,
+      );
+      for (let b = 0; b < pairs; b++) {
+        const ya = y + 2 * b;
+        const paired = ya + 1 < y1;
+        const ra = ya * spectrumWidth;
+        const rb = ra + spectrumWidth;
+        for (let k = 0; k < spectrumWidth; k++) {
+          const p = k * pairs + b;
+          const c = (k === 0 ? 0 : width - k) * pairs + b;
+          const pr = zRe[p]!,
+            pi = zIm[p]!,
+            cr = zRe[c]!,
+            ci = zIm[c]!;
+          outRe[ra + k] = 0.5 * (pr + cr);
+          outIm[ra + k] = 0.5 * (pi - ci);
+          if (paired) {
+            outRe[rb + k] = 0.5 * (pi + ci);
+            outIm[rb + k] = -0.5 * (pr - cr);
+          }
         }
       }
     }
@@ -170,28 +199,48 @@ export class RealFft2dFloat64 implements RealFft2d {
   ): void {
     const { width, height, spectrumWidth, zRe, zIm } = this;
     const scale = 1 / (width * height);
-    for (let y = y0; y < y1; y += 2) {
-      const paired = y + 1 < y1;
-      const ra = y * spectrumWidth;
-      const rb = ra + spectrumWidth;
-      // Z = A + iB on the stored half, Z[k] = conj A[w−k] + i conj B[w−k] on the other.
-      for (let k = 0; k < spectrumWidth; k++) {
-        const ar = specRe[ra + k]!,
-          ai = specIm[ra + k]!;
-        const br = paired ? specRe[rb + k]! : 0,
-          bi = paired ? specIm[rb + k]! : 0;
-        zRe[k] = ar - bi;
-        zIm[k] = ai + br;
-        if (k > 0 && width - k >= spectrumWidth) {
-          zRe[width - k] = ar + bi;
-          zIm[width - k] = br - ai;
+    for (let y = y0; y < y1; y += 2 * ROW_PAIRS) {
+      const pairs = Math.min(ROW_PAIRS, Math.ceil((y1 - y) / 2));
+      for (let b = 0; b < pairs; b++) {
+        const ya = y + 2 * b;
+        const paired = ya + 1 < y1;
+        const ra = ya * spectrumWidth;
+        const rb = ra + spectrumWidth;
+        // Z = A + iB on the stored half, Z[k] = conj A[w−k] + i conj B[w−k] on the other.
+        for (let k = 0; k < spectrumWidth; k++) {
+          const ar = specRe[ra + k]!,
+            ai = specIm[ra + k]!;
+          const br = paired ? specRe[rb + k]! : 0,
+            bi = paired ? specIm[rb + k]! : 0;
+          zRe[k * pairs + b] = ar - bi;
+          zIm[k * pairs + b] = ai + br;
+          if (k > 0 && width - k >= spectrumWidth) {
+            zRe[(width - k) * pairs + b] = ar + bi;
+            zIm[(width - k) * pairs + b] = br - ai;
+          }
         }
       }
       // Inverse = forward with real and imaginary parts swapped.
-      complexForward(this.rowPlan, 1, zIm, zRe, 0, 1, zIm, zRe, 0, 1, this.rowWorkIm, this.rowWorkRe);
-      const a = y * width;
-      for (let x = 0; x < width; x++) output[a + x] = zRe[x]! * scale;
-      if (paired) for (let x = 0; x < width; x++) output[a + width + x] = zIm[x]! * scale;
+      complexForward(
+        this.rowPlan,
+        pairs,
+        zIm,
+        zRe,
+        0,
+        pairs,
+        zIm,
+        zRe,
+        0,
+        pairs,
+        this.rowWorkIm,
+        this.rowWorkRe,
+      );
+      for (let b = 0; b < pairs; b++) {
+        const ya = y + 2 * b;
+        const a = ya * width;
+        for (let x = 0; x < width; x++) output[a + x] = zRe[x * pairs + b]! * scale;
+        if (ya + 1 < y1) for (let x = 0; x < width; x++) output[a + width + x] = zIm[x * pairs + b]! * scale;
+      }
     }
   }
 

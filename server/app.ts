@@ -77,6 +77,18 @@ export function createApp(ctx: AppContext, options: AppOptions = {}): SkysieveAp
   ];
   const openApiDocument = buildOpenApiDocument(routes, ctx.version);
 
+  if (ctx.config.logRequests) {
+    // Method, path, status and time only: never bodies (passwords) or query strings (tokens).
+    app.use((req, res, next) => {
+      const started = process.hrtime.bigint();
+      res.on('finish', () => {
+        const ms = Number(process.hrtime.bigint() - started) / 1e6;
+        ctx.logger.info(`${req.method} ${req.path} ${res.statusCode} ${ms.toFixed(1)} ms`);
+      });
+      next();
+    });
+  }
+
   const api = express.Router();
   api.use(express.json({ limit: '1mb' }));
   api.use(...authentication.middleware);

@@ -44,6 +44,7 @@ const environmentSchema = z.object({
   INVITATION_TTL_DAYS: z.coerce.number().int().positive().default(14),
   SIGN_IN_RATE_LIMIT: z.coerce.number().int().positive().default(10),
   RESET_RATE_LIMIT: z.coerce.number().int().positive().default(5),
+  SIGN_UP_RATE_LIMIT: z.coerce.number().int().positive().default(20),
   RATE_LIMIT_WINDOW_MINUTES: z.coerce.number().int().positive().default(15),
   SESSION_MAX_AGE_DAYS: z.coerce.number().positive().default(14),
   SMTP_HOST: optionalString,
@@ -73,7 +74,7 @@ export interface Config {
   pgPort: number;
   /** Folder for the local cluster and generated secrets (git-ignored `.data`). */
   dataDir: string;
-  /** Unset: start.ts generates one and keeps it in the data folder. */
+  /** Unset: `npm start` generates one and keeps it in the data folder; server/index.ts refuses to run without. */
   sessionSecret: string | undefined;
   registrationOpen: boolean;
   defaultQuotaBytes: number;
@@ -85,6 +86,7 @@ export interface Config {
   invitationTtlDays: number;
   signInRateLimit: number;
   resetRateLimit: number;
+  signUpRateLimit: number;
   rateLimitWindowMinutes: number;
   sessionMaxAgeDays: number;
   smtp: {
@@ -124,9 +126,6 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
       'Invalid configuration: set SMTP_HOST (or DEV_MAIL=1) so the server can send e-mail.',
     );
   }
-  if (production && !e.SESSION_SECRET) {
-    throw new ConfigError('Invalid configuration: SESSION_SECRET must be set in production.');
-  }
   if ((e.SKYSIEVE_ADMIN_EMAIL === undefined) !== (e.SKYSIEVE_ADMIN_PASSWORD === undefined)) {
     throw new ConfigError(
       'Invalid configuration: set both SKYSIEVE_ADMIN_EMAIL and SKYSIEVE_ADMIN_PASSWORD, or neither.',
@@ -159,6 +158,7 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     invitationTtlDays: e.INVITATION_TTL_DAYS,
     signInRateLimit: e.SIGN_IN_RATE_LIMIT,
     resetRateLimit: e.RESET_RATE_LIMIT,
+    signUpRateLimit: e.SIGN_UP_RATE_LIMIT,
     rateLimitWindowMinutes: e.RATE_LIMIT_WINDOW_MINUTES,
     sessionMaxAgeDays: e.SESSION_MAX_AGE_DAYS,
     smtp: {

@@ -37,7 +37,7 @@ export function authRoutes(ctx: AppContext, authentication: Authentication): Any
       summary: 'Create an account and sign in',
       tag,
       access: 'public',
-      before: [limits.reset],
+      before: [limits.signUp],
       body: signupRequestSchema,
       responses: { 201: { description: 'Signed up', schema: userResponseSchema }, ...errors(403, 409, 429) },
       handler: controller.signUp,

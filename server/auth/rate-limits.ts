@@ -21,7 +21,11 @@ function limiter(
   });
 }
 
-export function createAuthRateLimits(config: Config): { signIn: RequestHandler; reset: RequestHandler } {
+export function createAuthRateLimits(config: Config): {
+  signIn: RequestHandler;
+  signUp: RequestHandler;
+  reset: RequestHandler;
+} {
   const minutes = config.rateLimitWindowMinutes;
   return {
     // Only failed attempts count: a team signing in from one office address is not locked out.
@@ -30,6 +34,12 @@ export function createAuthRateLimits(config: Config): { signIn: RequestHandler; 
       minutes,
       `Too many failed sign-in attempts. Wait ${minutes} minutes and try again.`,
       true,
+    ),
+    signUp: limiter(
+      config.signUpRateLimit,
+      minutes,
+      `Too many sign-ups from this address. Wait ${minutes} minutes and try again.`,
+      false,
     ),
     reset: limiter(
       config.resetRateLimit,

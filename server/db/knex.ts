@@ -67,12 +67,19 @@ export async function migrateRollbackAll(knex: Knex): Promise<void> {
   await knex.migrate.rollback(migrationConfig, true);
 }
 
-/** True when the database answers a trivial query within the pool's timeout. */
-export async function databaseIsUp(knex: Knex): Promise<boolean> {
+/** True when the database answers a trivial query within `timeoutMs`. */
+export async function databaseIsUp(knex: Knex, timeoutMs = 2000): Promise<boolean> {
+  let timer: NodeJS.Timeout | undefined;
+  const timeout = new Promise<boolean>((resolve) => {
+    timer = setTimeout(() => resolve(false), timeoutMs);
+  });
+  const query = knex.raw('select 1').then(
+    () => true,
+    () => false,
+  );
   try {
-    await knex.raw('select 1');
-    return true;
-  } catch {
-    return false;
+    return await Promise.race([query, timeout]);
+  } finally {
+    clearTimeout(timer);
   }
 }

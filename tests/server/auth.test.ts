@@ -239,3 +239,20 @@ describe('own account', () => {
     expect(old.status).toBe(401);
   });
 });
+
+describe('session cookie behind a TLS proxy', () => {
+  it('is marked Secure when TRUST_PROXY is on and the proxy says https', async () => {
+    const proxied = await startTestApp({ trustProxy: true, publicUrl: 'https://sky.example.org' }, t.db);
+    try {
+      const response = await request(proxied.app).get('/api/auth/csrf').set('x-forwarded-proto', 'https');
+      const cookies = String(response.headers['set-cookie']);
+      expect(cookies).toMatch(/skysieve\.sid=[^;]+;.*Secure/);
+      expect(cookies).toMatch(/skysieve\.csrf=[^;]+;.*Secure/);
+      expect(response.headers['strict-transport-security']).toBeDefined();
+      const plain = await request(t.app).get('/api/auth/csrf');
+      expect(String(plain.headers['set-cookie'])).not.toContain('Secure');
+    } finally {
+      await proxied.close();
+    }
+  });
+});

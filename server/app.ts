@@ -17,8 +17,10 @@ import type { AppContext } from './context';
 import { healthRoutes } from './health/health.routes';
 import { type AnyRouteSpec, mountRoutes } from './http/api-route';
 import { apiNotFound, errorHandler } from './http/error-handler';
+import { imageRoutes } from './images/images.routes';
 import { buildOpenApiDocument } from './openapi';
 import { projectRoutes } from './projects/projects.routes';
+import { storageRoutes } from './storage/storage.routes';
 import { tokenRoutes } from './tokens/tokens.routes';
 
 export const defaultClientDirectory = fileURLToPath(new URL('../dist', import.meta.url));
@@ -73,6 +75,8 @@ export function createApp(ctx: AppContext, options: AppOptions = {}): SkysieveAp
     ...tokenRoutes,
     ...projectRoutes(ctx),
     ...adminRoutes,
+    ...imageRoutes(ctx),
+    ...storageRoutes(ctx),
     ...(options.extraRoutes ?? []),
   ];
   const openApiDocument = buildOpenApiDocument(routes, ctx.version);

@@ -1,6 +1,7 @@
 export { ApiToken } from './api-token';
 export { AuditEvent } from './audit-event';
 export { DevMail } from './dev-mail';
+export { Image } from './image';
 export { Invitation } from './invitation';
 export { Membership } from './membership';
 export { PasswordReset } from './password-reset';

@@ -9,6 +9,9 @@
  * tests/support/test-database.ts uses them.
  */
 import { spawn, type ChildProcess } from 'node:child_process';
+import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
 
 import pg from 'pg';
 
@@ -21,6 +24,7 @@ const started = Date.now();
 const seconds = () => ((Date.now() - started) / 1000).toFixed(1);
 
 let cluster: ThrowawayCluster | undefined;
+let reportFile: string | undefined;
 let child: ChildProcess | undefined;
 let cleaning: Promise<void> | undefined;
 
@@ -77,7 +81,14 @@ async function main(): Promise<number> {
     SKYSIEVE_TEST_POSTGRES_URL: cluster.url(),
     SKYSIEVE_TEST_TEMPLATE_DATABASE: templateDatabase,
   };
-  const args = ['vitest', 'run', ...process.argv.slice(2)];
+  const extra = process.argv.slice(2);
+  // Unless the caller picks reporters, also write vitest's JSON report for the summary below.
+  const reportDir = mkdtempSync(path.join(os.tmpdir(), 'skysieve-test-report-'));
+  reportFile = path.join(reportDir, 'report.json');
+  const reporters = extra.some((arg) => arg.startsWith('--reporter'))
+    ? []
+    : ['--reporter=default', '--reporter=json', `--outputFile.json=${reportFile}`];
+  const args = ['vitest', 'run', ...reporters, ...extra];
   console.log(`[test] npx ${args.join(' ')}`);
   const code = await new Promise<number>((resolve) => {
     child = spawn('npx', args, { stdio: 'inherit', env });
@@ -88,6 +99,56 @@ async function main(): Promise<number> {
     child.on('close', (exitCode, signal) => resolve(exitCode ?? (signal ? 1 : 0)));
   });
   return code;
+}
+
+interface JsonReport {
+  numTotalTests: number;
+  numPassedTests: number;
+  numFailedTests: number;
+  numPendingTests: number;
+  numTodoTests?: number;
+  testResults: { name: string; status: string; assertionResults: { status: string }[] }[];
+}
+
+/** Per test folder (tests/server, tests/client, …): files and tests passed / failed / skipped. */
+function printSummary(): void {
+  if (!reportFile || !existsSync(reportFile)) return;
+  try {
+    const report = JSON.parse(readFileSync(reportFile, 'utf8')) as JsonReport;
+    const groups = new Map<
+      string,
+      { files: number; failedFiles: number; passed: number; failed: number; skipped: number }
+    >();
+    for (const file of report.testResults) {
+      const relative = path.relative(process.cwd(), file.name);
+      const group = relative.split(path.sep).slice(0, 2).join('/');
+      const entry = groups.get(group) ?? { files: 0, failedFiles: 0, passed: 0, failed: 0, skipped: 0 };
+      entry.files++;
+      if (file.status !== 'passed') entry.failedFiles++;
+      for (const test of file.assertionResults) {
+        if (test.status === 'passed') entry.passed++;
+        else if (test.status === 'failed') entry.failed++;
+        else entry.skipped++;
+      }
+      groups.set(group, entry);
+    }
+    console.log('\n[test] Summary');
+    for (const [group, entry] of [...groups].sort()) {
+      console.log(
+        `  ${group.padEnd(18)} ${String(entry.files).padStart(3)} files (${entry.failedFiles} failed)  ${String(entry.passed).padStart(4)} passed  ${String(entry.failed).padStart(3)} failed  ${String(entry.skipped).padStart(3)} skipped`,
+      );
+    }
+    console.log(
+      `  ${'all'.padEnd(18)} ${String(report.testResults.length).padStart(3)} files              ${String(report.numPassedTests).padStart(4)} passed  ${String(report.numFailedTests).padStart(3)} failed  ${String(report.numPendingTests + (report.numTodoTests ?? 0)).padStart(3)} skipped`,
+    );
+  } catch (error) {
+    console.log(
+      '[test] (no summary: could not read the vitest JSON report)',
+      error instanceof Error ? error.message : error,
+    );
+  } finally {
+    rmSync(path.dirname(reportFile), { recursive: true, force: true });
+  }
 }
 
 let exitCode = 1;
@@ -101,6 +162,7 @@ try {
 } finally {
   await cleanUp();
 }
+printSummary();
 console.log(
   exitCode === 0
     ? `[test] PASSED: every suite passed (${seconds()} s).`

@@ -2,7 +2,8 @@
  * 2-D real FFT computed in float32 by PFFFT (WASM, SIMD), float64 at the interface (layout and normalisation in
  * types.ts). Width must be a multiple of 32 and height a multiple of 16, both 2,3,5-smooth (goodFftSize gives
  * such sizes). The image mean is taken out before rounding to float32 and restored exactly (pffft-core.ts).
- * With threads = 2 a persistent worker (fft-thread.ts) takes the lower rows and the right-hand columns.
+ * With threads = 2 a persistent worker (fft-thread.ts) takes the lower rows and the right-hand columns, on grids
+ * of at least THREADS_MIN_PIXELS (below that the hand-over costs more than it saves).
  */
 import { checkLength } from './check-size';
 import {
@@ -14,7 +15,7 @@ import {
 } from './fft-thread';
 import { PffftCore } from './pffft-core';
 import { pffftComplexLength, pffftRealLength } from './pffft-module';
-import { copyColumns, sharedFloat64 } from './shared-buffers';
+import { copyColumns, sharedFloat64, THREADS_MIN_PIXELS } from './shared-buffers';
 import type { RealFft2d } from './types';
 
 export class RealFft2dFloat32 implements RealFft2d {
@@ -32,13 +33,14 @@ export class RealFft2dFloat32 implements RealFft2d {
   constructor(
     readonly width: number,
     readonly height: number,
-    threads: 1 | 2 = 1,
+    requestedThreads: 1 | 2 = 1,
   ) {
     checkFloat32Size(width, height);
     this.core = new PffftCore(width, height);
     this.spectrumWidth = this.core.spectrumWidth;
     this.rowSplit = Math.floor(height / 2);
     this.columnSplit = Math.min(this.spectrumWidth, 16 * Math.ceil(this.spectrumWidth / 32));
+    const threads = width * height >= THREADS_MIN_PIXELS ? requestedThreads : 1;
     this.implementation = `pffft-wasm-float32${threads === 2 ? '-2-threads' : ''}`;
     if (threads === 2) {
       const rows = new SharedArrayBuffer(width * height * Float32Array.BYTES_PER_ELEMENT);
@@ -121,6 +123,11 @@ export class RealFft2dFloat32 implements RealFft2d {
     this.thread?.dispose();
     this.core.dispose();
   }
+}
+
+/** True when the float32 backend takes a width × height grid (goodFftSize sizes ≥ 32 always are). */
+export function supportsFloat32(width: number, height: number): boolean {
+  return pffftRealLength(width) && pffftComplexLength(height);
 }
 
 /** Throws unless PFFFT takes rows of this width and columns of this height. */

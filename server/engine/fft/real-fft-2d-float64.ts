@@ -7,7 +7,8 @@
  * Columns: complex transforms of length height over blocks of adjacent half-spectrum columns, so every stage
  * streams through contiguous memory. The inverse runs the same steps backwards; it rebuilds the full row
  * spectrum from Hermitian symmetry and unpacks two real rows from one complex inverse.
- * With threads = 2 a persistent worker (fft-thread.ts) takes the lower rows and the right-hand columns.
+ * With threads = 2 a persistent worker (fft-thread.ts) takes the lower rows and the right-hand columns, on grids
+ * of at least THREADS_MIN_PIXELS (below that the hand-over costs more than it saves).
  */
 import { checkFftSize, checkLength } from './check-size';
 import { complexForward, createComplexPlan, type ComplexPlan } from './complex-plan';
@@ -18,7 +19,7 @@ import {
   COMMAND_INVERSE_ROWS,
   FftThread,
 } from './fft-thread';
-import { copyColumns, sharedFloat64 } from './shared-buffers';
+import { copyColumns, sharedFloat64, THREADS_MIN_PIXELS } from './shared-buffers';
 import type { RealFft2d } from './types';
 
 /** Columns per block in the column pass: 32 columns × height complex values stay in the L2 cache. */
@@ -47,7 +48,7 @@ export class RealFft2dFloat64 implements RealFft2d {
   constructor(
     readonly width: number,
     readonly height: number,
-    threads: 1 | 2 = 1,
+    requestedThreads: 1 | 2 = 1,
   ) {
     checkFftSize(width, height);
     this.spectrumWidth = Math.floor(width / 2) + 1;
@@ -59,6 +60,7 @@ export class RealFft2dFloat64 implements RealFft2d {
     this.rowWorkIm = new Float64Array(width * ROW_PAIRS);
     this.columnWorkRe = new Float64Array(height * COLUMN_BLOCK);
     this.columnWorkIm = new Float64Array(height * COLUMN_BLOCK);
+    const threads = width * height >= THREADS_MIN_PIXELS ? requestedThreads : 1;
     this.implementation = `typescript-float64${threads === 2 ? '-2-threads' : ''}`;
     // Row pairs stay on one thread: the split is even.
     this.rowSplit = 2 * Math.floor(height / 4);

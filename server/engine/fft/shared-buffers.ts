@@ -1,5 +1,12 @@
 /** Helpers for the buffers shared between the calling thread and the FFT worker. */
 
+/**
+ * Smallest grid (pixels) on which `threads: 2` starts a worker: below 512² one transform takes about a
+ * millisecond and the two hand-overs per transform (tens of µs each, far more on a busy machine) eat the gain
+ * (server/bench, FFT table).
+ */
+export const THREADS_MIN_PIXELS = 512 * 512;
+
 export function sharedFloat64(length: number): SharedArrayBuffer {
   return new SharedArrayBuffer(length * Float64Array.BYTES_PER_ELEMENT);
 }

@@ -41,7 +41,8 @@ export interface RealFft2dOptions {
    */
   precision?: FftPrecision;
   /**
-   * Threads to use (1 or 2): 2 splits rows and columns between the calling thread and one persistent worker.
+   * Threads to use (1 or 2): 2 splits rows and columns between the calling thread and one persistent worker
+   * (only on grids of at least 512² pixels; smaller grids run on the calling thread). Results are bit-identical.
    * @default 1
    */
   threads?: 1 | 2;

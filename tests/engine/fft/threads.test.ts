@@ -9,10 +9,10 @@ async function untilWorkerReady(fft: RealFft2d): Promise<boolean> {
 }
 describe('two-thread transforms (persistent worker, shared memory)', () => {
   it.each<[FftPrecision, number, number]>([
-    ['float32', 96, 64],
-    ['float32', 256, 160],
-    ['float64', 90, 50],
-    ['float64', 128, 75],
+    ['float32', 512, 512],
+    ['float32', 640, 480],
+    ['float64', 512, 512],
+    ['float64', 750, 360],
   ])('%s %i×%i gives bit-identical results to one thread', async (precision, width, height) => {
     const one = createRealFft2d(width, height, { precision, threads: 1 });
     const two = createRealFft2d(width, height, { precision, threads: 2 });
@@ -46,6 +46,13 @@ describe('two-thread transforms (persistent worker, shared memory)', () => {
       one.dispose();
       two.dispose();
     }
+  });
+
+  it('stays on one thread below 512² pixels', async () => {
+    const small = createRealFft2d(256, 256, { precision: 'float32', threads: 2 });
+    expect(small.implementation).toBe('pffft-wasm-float32');
+    expect(await small.whenReady()).toBe(true);
+    small.dispose();
   });
 
   it('rejects a thread count other than 1 or 2', () => {

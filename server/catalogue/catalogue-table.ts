@@ -25,6 +25,8 @@ export interface TableColumn {
   description: string;
   /** Only meaningful for `int`: the column may hold nulls. */
   nullable?: boolean;
+  /** RA/Dec columns in the provenance's equatorial frame (VOTable FIELD ref to its COOSYS). */
+  inFrame?: boolean;
 }
 
 /** Where a catalogue came from; carried into the CSV sidecar, VOTable PARAMs and FITS header cards. */
@@ -43,6 +45,8 @@ export interface CatalogueProvenance {
   softwareVersion: string;
   /** ISO 8601 time the catalogue was made. */
   createdAt: string;
+  /** The image's equatorial frame (RADESYS / EQUINOX), when it has a celestial WCS. */
+  equatorialFrame?: { system: 'ICRS' | 'FK5' | 'FK4'; equinox?: number } | null;
 }
 
 /** A single value that describes the whole table (e.g. the match radius): a VOTable PARAM, a FITS card. */
@@ -140,8 +144,16 @@ export function sourceColumns(imageUnit: string): TableColumn[] {
       unit: 'deg',
       ucd: 'pos.eq.ra;meta.main',
       description: 'Right ascension',
+      inFrame: true,
     },
-    { name: 'dec', datatype: 'double', unit: 'deg', ucd: 'pos.eq.dec;meta.main', description: 'Declination' },
+    {
+      name: 'dec',
+      datatype: 'double',
+      unit: 'deg',
+      ucd: 'pos.eq.dec;meta.main',
+      description: 'Declination',
+      inFrame: true,
+    },
     {
       name: 'ra_err',
       datatype: 'double',

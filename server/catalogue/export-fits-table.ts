@@ -80,6 +80,17 @@ function provenanceCards(table: CatalogueTable): HeaderCard[] {
     { keyword: 'IMAGE', value: p.imageName, comment: 'image the catalogue was measured on' },
     { keyword: 'IMGSHA', value: p.imageSha256, comment: 'SHA-256 of the image file' },
   ];
+  if (p.equatorialFrame) {
+    cards.push({
+      keyword: 'RADESYS',
+      value: p.equatorialFrame.system,
+      comment: 'frame of the RA/Dec columns',
+    });
+    if (p.equatorialFrame.system !== 'ICRS') {
+      const equinox = p.equatorialFrame.equinox ?? (p.equatorialFrame.system === 'FK5' ? 2000 : 1950);
+      cards.push({ keyword: 'EQUINOX', value: equinox, real: true, comment: '[yr] equinox of the frame' });
+    }
+  }
   if (p.imageUnit !== '')
     cards.push({ keyword: 'IMGUNIT', value: p.imageUnit, comment: 'BUNIT of the image' });
   if (p.beam) {

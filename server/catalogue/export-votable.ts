@@ -21,13 +21,16 @@ export const VOTABLE_NAMESPACE = 'http://www.ivoa.net/xml/VOTable/v1.3';
 /** The null sentinel of nullable int columns (also TNULLn in the FITS table). */
 export const INT_NULL = -2147483648;
 
-function fieldAttributes(column: TableColumn): Record<string, string> {
+const COOSYS_ID = 'equatorial_frame';
+
+function fieldAttributes(column: TableColumn, hasFrame: boolean): Record<string, string> {
   const attributes: Record<string, string> = {
     name: column.name,
     ID: `col_${column.name}`,
     datatype: column.datatype,
   };
   if (column.datatype === 'char') attributes.arraysize = '*';
+  if (hasFrame && column.inFrame) attributes.ref = COOSYS_ID;
   if (column.unit !== '') attributes.unit = column.unit;
   if (column.ucd !== '') attributes.ucd = column.ucd;
   return attributes;
@@ -66,6 +69,17 @@ export function tableToVotable(table: CatalogueTable): string {
   });
   const resource = root.ele('RESOURCE', { type: 'results', name: 'skysieve' });
   resource.ele('DESCRIPTION').txt(CATALOGUE_CAUTION);
+  const frame = provenance.equatorialFrame ?? null;
+  if (frame) {
+    // VOTable 1.4 §3.1 COOSYS: system ICRS, eq_FK5 or eq_FK4; the equinox as a Julian or Besselian year.
+    const system = frame.system === 'ICRS' ? 'ICRS' : frame.system === 'FK5' ? 'eq_FK5' : 'eq_FK4';
+    const attributes: Record<string, string> = { ID: COOSYS_ID, system };
+    if (frame.system !== 'ICRS') {
+      const equinox = frame.equinox ?? (frame.system === 'FK5' ? 2000 : 1950);
+      attributes.equinox = `${frame.system === 'FK5' ? 'J' : 'B'}${equinox.toFixed(1)}`;
+    }
+    resource.ele('COOSYS', attributes);
+  }
   addParam(
     resource,
     'image_name',
@@ -147,7 +161,7 @@ export function tableToVotable(table: CatalogueTable): string {
     );
   }
   for (const column of table.columns) {
-    const field = tableElement.ele('FIELD', fieldAttributes(column));
+    const field = tableElement.ele('FIELD', fieldAttributes(column, frame !== null));
     field.ele('DESCRIPTION').txt(column.description);
     if (column.datatype === 'int' && column.nullable) field.ele('VALUES', { null: String(INT_NULL) });
   }

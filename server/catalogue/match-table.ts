@@ -31,6 +31,7 @@ function skyColumns(): TableColumn[] {
       unit: 'deg',
       ucd: 'pos.eq.ra;meta.main',
       description: 'Our right ascension',
+      inFrame: true,
     },
     {
       name: 'our_dec',
@@ -38,6 +39,7 @@ function skyColumns(): TableColumn[] {
       unit: 'deg',
       ucd: 'pos.eq.dec;meta.main',
       description: 'Our declination',
+      inFrame: true,
     },
     {
       name: 'their_ra',

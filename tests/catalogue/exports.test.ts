@@ -253,3 +253,22 @@ describe('writeCatalogueFiles', () => {
     expect(existsSync(out)).toBe(false);
   });
 });
+
+describe('equatorial frame', () => {
+  it('writes a COOSYS the RA/Dec FIELDs refer to (VOTable 1.4 §3.1) and RADESYS/EQUINOX in FITS', () => {
+    const path = join(dir, 'frame.vot');
+    writeFileSync(path, tableToVotable(table));
+    const fitsPath = join(dir, 'frame.fits');
+    writeFileSync(fitsPath, tableToFitsBintable(table));
+    const read = readBackWithAstropy({ votable: path, fits: fitsPath });
+    expect(read.votable.coosys).toEqual([{ ID: 'equatorial_frame', system: 'eq_FK5', equinox: 'J2000.0' }]);
+    const refs = Object.fromEntries(
+      read.votable.fields.map((field: { name: string; ref: string | null }) => [field.name, field.ref]),
+    );
+    expect(refs.ra).toBe('equatorial_frame');
+    expect(refs.dec).toBe('equatorial_frame');
+    expect(refs.flux).toBeNull();
+    expect(read.fits.headers[1].RADESYS).toBe('FK5');
+    expect(read.fits.headers[1].EQUINOX).toBe(2000);
+  });
+});

@@ -10,6 +10,7 @@ export const sampleProvenance: CatalogueProvenance = {
   settingsDigest: 'sha256:0b1c7e2d',
   softwareVersion: '0.1.0',
   createdAt: '2026-12-02T04:00:00Z',
+  equatorialFrame: { system: 'FK5', equinox: 2000 },
 };
 
 export const sampleSources: CatalogueSource[] = [

@@ -114,6 +114,17 @@ export function normalUpperTail(z: number): number {
   return 0.5 * erfc(z * SQRT_HALF);
 }
 
+/**
+ * Upper tail Q(|z|) and density φ(z) together, sharing one exponential: with a = |z|/√2,
+ * Q(|z|) = ½ e^(−a²) g(a) and φ(z) = e^(−z²/2)/√(2π), and e^(−a²) = e^(−z²/2). Writes [Q(|z|), φ(z)] to `out`.
+ */
+export function tailAndDensity(z: number, out: Float64Array): void {
+  const e = Math.exp(-0.5 * z * z);
+  const a = Math.abs(z) * SQRT_HALF;
+  out[0] = a < TABLE_END ? 0.5 * e * scaledErfc(a) : normalUpperTail(Math.abs(z));
+  out[1] = ONE_OVER_SQRT_TWO_PI * e;
+}
+
 /** The direct (untabulated) erfc, exported for the tests. */
 export const erfcUntabulated = erfcDirect;
 

@@ -13,11 +13,13 @@
  * min(σv, s). The derivative along u is the same quadrature of the normal density at the pixel edges; the
  * derivative along v is exact: the integrand evaluated at the two pixel edges (Leibniz rule).
  *
+ * Axis-aligned Gaussians take an exact separable shortcut (products of 1-D normal interval probabilities).
+ *
  * Image PSF: its values are already pixel-integrated, so the stamp is the image shifted by (dx, dy) with the Keys
  * cubic-convolution kernel (a = −½; R. G. Keys, IEEE Trans. ASSP 29, 1153, 1981), which preserves the sum and
  * reproduces quadratics; derivatives are those of the kernel.
  */
-import { normalDensity, normalUpperTail } from './normal-integral';
+import { normalDensity, normalUpperTail, tailAndDensity } from './normal-integral';
 import { gaussianCovariance, type GaussianPsf, type ImagePsf, type Psf } from './psf';
 
 export interface PsfStamp {
@@ -78,8 +80,51 @@ function intervalFromTails(z0: number, t0: number, z1: number, t1: number): numb
   return 1 - t0 - t1;
 }
 
+/**
+ * Axis-aligned Gaussians (circular, or PA a multiple of 90°) separate exactly: P(i, j) = X(i) Y(j) with X, Y
+ * 1-D normal interval probabilities, and ∂P/∂dx = X'(i) Y(j) with X'(i) = [φ(z_lo) − φ(z_hi)]/σx.
+ */
+function separableGaussianStamp(sx: number, sy: number, dx: number, dy: number, stamp: PsfStamp): void {
+  const h = stamp.halfSize;
+  const size = stamp.size;
+  const profile = (sigma: number, d: number): { value: Float64Array; derivative: Float64Array } => {
+    const value = new Float64Array(size);
+    const derivative = new Float64Array(size);
+    let zPrev = (-h - 0.5 - d) / sigma;
+    let tPrev = normalUpperTail(Math.abs(zPrev));
+    let fPrev = normalDensity(zPrev);
+    for (let k = 0; k < size; k++) {
+      const z = (k - h + 0.5 - d) / sigma;
+      const t = normalUpperTail(Math.abs(z));
+      const f = normalDensity(z);
+      value[k] = intervalFromTails(zPrev, tPrev, z, t);
+      derivative[k] = (fPrev - f) / sigma;
+      zPrev = z;
+      tPrev = t;
+      fPrev = f;
+    }
+    return { value, derivative };
+  };
+  const px = profile(sx, dx);
+  const py = profile(sy, dy);
+  for (let j = 0; j < size; j++) {
+    const vy = py.value[j] as number;
+    const dvy = py.derivative[j] as number;
+    for (let i = 0; i < size; i++) {
+      const k = j * size + i;
+      stamp.values[k] = (px.value[i] as number) * vy;
+      stamp.dValuesDx[k] = (px.derivative[i] as number) * vy;
+      stamp.dValuesDy[k] = (px.value[i] as number) * dvy;
+    }
+  }
+}
+
 function gaussianStamp(psf: GaussianPsf, dx: number, dy: number, stamp: PsfStamp): void {
   const c = gaussianCovariance(psf);
+  if (Math.abs(c.xy) <= 1e-14 * (c.xx + c.yy)) {
+    separableGaussianStamp(Math.sqrt(c.xx), Math.sqrt(c.yy), dx, dy, stamp);
+    return;
+  }
   // Outer (quadrature) axis v = the axis of larger variance: smoother integrand.
   const transpose = c.xx > c.yy;
   const cvv = transpose ? c.xx : c.yy;
@@ -100,16 +145,20 @@ function gaussianStamp(psf: GaussianPsf, dx: number, dy: number, stamp: PsfStamp
   const nSub = Math.min(64, Math.max(1, Math.ceil(1 / Math.min(sv, s))));
   const z = new Float64Array(size + 1);
   const t = new Float64Array(size + 1);
+  const phi = new Float64Array(size + 1);
+  const pair = new Float64Array(2);
   const edgeProfile = new Float64Array((size + 1) * size);
   const index = (vIdx: number, uIdx: number): number => (transpose ? uIdx * size + vIdx : vIdx * size + uIdx);
 
-  // u-profile at a given v: fills z, t with the standardized inner-axis edges.
+  // u-profile at a given v: the standardized inner-axis edges z, their tails Q(|z|) and densities φ(z).
   const edges = (v: number): void => {
     const mu = m * v;
     for (let k = 0; k <= size; k++) {
       const zk = (k - h - 0.5 - du - mu) / s;
       z[k] = zk;
-      t[k] = normalUpperTail(Math.abs(zk));
+      tailAndDensity(zk, pair);
+      t[k] = pair[0] as number;
+      phi[k] = pair[1] as number;
     }
   };
 
@@ -129,7 +178,7 @@ function gaussianStamp(psf: GaussianPsf, dx: number, dy: number, stamp: PsfStamp
           values[k] =
             (values[k] as number) +
             weight * intervalFromTails(z0, t[col] as number, z1, t[col + 1] as number);
-          dU[k] = (dU[k] as number) + (weight * (normalDensity(z0) - normalDensity(z1))) / s;
+          dU[k] = (dU[k] as number) + (weight * ((phi[col] as number) - (phi[col + 1] as number))) / s;
         }
       }
     }

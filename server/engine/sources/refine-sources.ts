@@ -14,7 +14,7 @@
  * and inverted as a whole, so the correlation between blended neighbours widens their errors as it should. For
  * Poisson data W = 1/λ at the fitted λ, which includes the source's own shot noise.
  */
-import { createPsfStamp, psfStamp, type Psf, type PsfStamp } from '../psf';
+import { createPsfStamp, psfStamp, type Psf } from '../psf';
 
 export interface RefineImage {
   width: number;
@@ -56,19 +56,31 @@ export interface SourceErrors {
 /** The sum of all sources' models on the image grid, kept up to date by add/remove. */
 export class SourceModel {
   readonly values: Float64Array;
-  private readonly stamp: PsfStamp;
+  /** What each source last added (position, flux, stamp), so removing it needs no new stamp. */
+  private readonly added = new Map<
+    RefinedSource,
+    { cx: number; cy: number; flux: number; values: Float64Array }
+  >();
   constructor(private readonly image: RefineImage) {
     this.values = new Float64Array(image.width * image.height);
-    this.stamp = createPsfStamp(image.modelHalfSize);
   }
-  /** values += sign · F · P around the source. */
+  /** sign 1: values += F · P around the source (and remember it); sign −1: take back what it last added. */
   add(source: RefinedSource, sign: 1 | -1): void {
     const { width, height, psf, modelHalfSize: h } = this.image;
-    const cx = Math.round(source.x);
-    const cy = Math.round(source.y);
-    psfStamp(psf, source.x - cx, source.y - cy, h, this.stamp);
-    const size = this.stamp.size;
-    const f = sign * source.flux;
+    let record = this.added.get(source);
+    if (sign === 1) {
+      const cx = Math.round(source.x);
+      const cy = Math.round(source.y);
+      const values = psfStamp(psf, source.x - cx, source.y - cy, h).values;
+      record = { cx, cy, flux: source.flux, values };
+      this.added.set(source, record);
+    } else {
+      if (!record) throw new Error('Source model: removing a source that was never added (a bug)');
+      this.added.delete(source);
+    }
+    const { cx, cy, values } = record;
+    const size = 2 * h + 1;
+    const f = sign * record.flux;
     for (let j = -h; j <= h; j++) {
       const y = cy + j;
       if (y < 0 || y >= height) continue;
@@ -76,8 +88,7 @@ export class SourceModel {
         const x = cx + i;
         if (x < 0 || x >= width) continue;
         const k = y * width + x;
-        this.values[k] =
-          (this.values[k] as number) + f * (this.stamp.values[(j + h) * size + (i + h)] as number);
+        this.values[k] = (this.values[k] as number) + f * (values[(j + h) * size + (i + h)] as number);
       }
     }
   }
@@ -130,8 +141,8 @@ export function windowFlags(image: RefineImage, x: number, y: number): { edge: b
   return { edge: r.touchesEdge, nearMask: r.touchesMask };
 }
 
-/** Solves the small dense system A z = b (A symmetric positive definite) by Cholesky; null if not SPD. */
-export function solveSymmetric(a: Float64Array, b: Float64Array, n: number): Float64Array | null {
+/** Cholesky factor L (row-major, lower) of a symmetric positive-definite n × n matrix; null if not SPD. */
+function cholesky(a: Float64Array, n: number): Float64Array | null {
   const l = new Float64Array(n * n);
   for (let i = 0; i < n; i++) {
     for (let j = 0; j <= i; j++) {
@@ -145,9 +156,14 @@ export function solveSymmetric(a: Float64Array, b: Float64Array, n: number): Flo
       }
     }
   }
-  const z = new Float64Array(n);
+  return l;
+}
+
+/** Solves L Lᵀ z = b in place of a copy of b. */
+function choleskySolve(l: Float64Array, b: Float64Array, n: number): Float64Array {
+  const z = Float64Array.from(b);
   for (let i = 0; i < n; i++) {
-    let s = b[i] as number;
+    let s = z[i] as number;
     for (let k = 0; k < i; k++) s -= (l[i * n + k] as number) * (z[k] as number);
     z[i] = s / (l[i * n + i] as number);
   }
@@ -159,15 +175,22 @@ export function solveSymmetric(a: Float64Array, b: Float64Array, n: number): Flo
   return z;
 }
 
-/** Inverse of a small SPD matrix (column by column); null if not SPD. */
+/** Solves the small dense system A z = b (A symmetric positive definite) by Cholesky; null if not SPD. */
+export function solveSymmetric(a: Float64Array, b: Float64Array, n: number): Float64Array | null {
+  const l = cholesky(a, n);
+  return l ? choleskySolve(l, b, n) : null;
+}
+
+/** Inverse of a symmetric positive-definite matrix (one factorisation, n solves); null if not SPD. */
 export function invertSymmetric(a: Float64Array, n: number): Float64Array | null {
+  const l = cholesky(a, n);
+  if (!l) return null;
   const inv = new Float64Array(n * n);
   const e = new Float64Array(n);
   for (let c = 0; c < n; c++) {
     e.fill(0);
     e[c] = 1;
-    const col = solveSymmetric(a, e, n);
-    if (!col) return null;
+    const col = choleskySolve(l, e, n);
     for (let r = 0; r < n; r++) inv[r * n + c] = col[r] as number;
   }
   return inv;
@@ -269,6 +292,7 @@ export function refitSource(
     if (!Number.isFinite(current)) return theta;
     for (let iteration = 0; iteration < 40; iteration++) {
       let accepted = false;
+      let converged = false;
       let step: Float64Array | null = null;
       for (let attempt = 0; attempt < 12 && !accepted; attempt++) {
         damped.set(a);
@@ -283,6 +307,14 @@ export function refitSource(
           // at most half a pixel per step
           const s = Math.max(Math.abs(step[1] as number), Math.abs(step[2] as number));
           if (s > 0.5) for (let u = 0; u < 3; u++) step[u] = ((step[u] as number) * 0.5) / s;
+        }
+        // Predicted decrease of the quadratic model, ≈ ½ gᵀ step: below 1e-6 nats the fit has converged (a
+        // further step would only be rejected by rounding).
+        let predicted = 0;
+        for (let u = 0; u < nFree; u++) predicted += 0.5 * (g[u] as number) * (step[u] as number);
+        if (predicted < 1e-6) {
+          converged = true;
+          break;
         }
         const trial = [
           (theta[0] as number) + (step[0] as number),
@@ -308,32 +340,41 @@ export function refitSource(
           mu *= 4;
         }
       }
-      if (!accepted || !step) break;
+      if (converged || !accepted || !step) break;
       const fluxScale = 1 / Math.sqrt(Math.max(a[0] as number, 1e-300));
       const small =
-        Math.abs(step[0] as number) < 1e-4 * fluxScale &&
-        (nFree === 1 || (Math.abs(step[1] as number) < 1e-5 && Math.abs(step[2] as number) < 1e-5));
+        Math.abs(step[0] as number) < 1e-3 * fluxScale &&
+        (nFree === 1 || (Math.abs(step[1] as number) < 1e-4 && Math.abs(step[2] as number) < 1e-4));
       if (small) break;
     }
     return theta;
   };
 
-  // Flux first at the current position, then flux and position when the source is bright enough.
-  let theta = levenberg(1, [Math.max(source.flux, 0), source.x, source.y]);
-  const fluxOnly = new Float64Array(1);
-  evaluate(theta[0] as number, theta[1] as number, theta[2] as number, 1, fluxOnly, new Float64Array(1));
-  const snr = (theta[0] as number) * Math.sqrt(fluxOnly[0] as number);
-  source.positionFixed = true;
-  if (snr >= options.minSnrForPosition) {
-    const full = levenberg(3, theta);
-    const shift = Math.hypot((full[1] as number) - source.seedX, (full[2] as number) - source.seedY);
-    if (
-      shift <= options.maxShiftPx &&
-      Math.abs((full[1] as number) - cx) <= w &&
-      Math.abs((full[2] as number) - cy) <= w
-    ) {
-      theta = full;
-      source.positionFixed = false;
+  // A source fitted with a free position before goes straight to the full fit. Otherwise: flux first at the
+  // current position, then flux and position when the source is bright enough.
+  const acceptable = (full: number[]): boolean =>
+    Math.hypot((full[1] as number) - source.seedX, (full[2] as number) - source.seedY) <=
+      options.maxShiftPx &&
+    Math.abs((full[1] as number) - cx) <= w &&
+    Math.abs((full[2] as number) - cy) <= w;
+  const start = [Math.max(source.flux, 0), source.x, source.y];
+  let theta: number[] | null = null;
+  if (!source.positionFixed && source.flux > 0) {
+    const full = levenberg(3, start);
+    if (acceptable(full)) theta = full;
+  }
+  source.positionFixed = theta === null;
+  if (theta === null) {
+    theta = levenberg(1, start);
+    const fluxOnly = new Float64Array(1);
+    evaluate(theta[0] as number, theta[1] as number, theta[2] as number, 1, fluxOnly, new Float64Array(1));
+    const snr = (theta[0] as number) * Math.sqrt(fluxOnly[0] as number);
+    if (snr >= options.minSnrForPosition) {
+      const full = levenberg(3, theta);
+      if (acceptable(full)) {
+        theta = full;
+        source.positionFixed = false;
+      }
     }
   }
   source.flux = theta[0] as number;

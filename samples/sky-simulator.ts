@@ -19,6 +19,7 @@
 import { createConvolver, createRealFft2d, goodFftSize } from '../server/engine/fft';
 import type { HeaderCard } from '../server/engine/io/header-card';
 import {
+  addStampToImage,
   FWHM_PER_SIGMA,
   psfBeamAreaPx,
   psfFromFwhm,
@@ -266,16 +267,7 @@ export function simulateSky(options: SkySimulationOptions): SimulatedSky {
     const cx = Math.round(s.x);
     const cy = Math.round(s.y);
     const stamp = psfStamp(psf, s.x - cx, s.y - cy, h);
-    for (let j = -h; j <= h; j++) {
-      const y = cy + j;
-      if (y < 0 || y >= height) continue;
-      for (let i = -h; i <= h; i++) {
-        const x = cx + i;
-        if (x < 0 || x >= width) continue;
-        model[y * width + x] =
-          (model[y * width + x] as number) + s.flux * (stamp.values[(j + h) * stamp.size + i + h] as number);
-      }
-    }
+    addStampToImage(model, width, height, stamp.values, h, cx, cy, s.flux);
     return { cx, cy, values: stamp.values };
   });
 

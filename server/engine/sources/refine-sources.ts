@@ -14,7 +14,7 @@
  * and inverted as a whole, so the correlation between blended neighbours widens their errors as it should. For
  * Poisson data W = 1/λ at the fitted λ, which includes the source's own shot noise.
  */
-import { createPsfStamp, psfStamp, type Psf } from '../psf';
+import { addStampToImage, createPsfStamp, psfStamp, type Psf } from '../psf';
 
 export interface RefineImage {
   width: number;
@@ -78,19 +78,7 @@ export class SourceModel {
       if (!record) throw new Error('Source model: removing a source that was never added (a bug)');
       this.added.delete(source);
     }
-    const { cx, cy, values } = record;
-    const size = 2 * h + 1;
-    const f = sign * record.flux;
-    for (let j = -h; j <= h; j++) {
-      const y = cy + j;
-      if (y < 0 || y >= height) continue;
-      for (let i = -h; i <= h; i++) {
-        const x = cx + i;
-        if (x < 0 || x >= width) continue;
-        const k = y * width + x;
-        this.values[k] = (this.values[k] as number) + f * (values[(j + h) * size + (i + h)] as number);
-      }
-    }
+    addStampToImage(this.values, width, height, record.values, h, record.cx, record.cy, sign * record.flux);
   }
 }
 

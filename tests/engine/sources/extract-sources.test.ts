@@ -315,7 +315,13 @@ describe('flags, world positions, units, order', () => {
     noise: { kind: 'gaussian', sigma },
     seed: 11,
   });
-  for (let y = 36; y < 46; y++) for (let x = 43; x < 50; x++) scene.mask[y * 90 + x] = 0;
+  for (let y = 36; y < 46; y++)
+    for (let x = 43; x < 50; x++) {
+      // blank pixels as a FITS reader gives them: masked, NaN in the data and in the compact field
+      scene.mask[y * 90 + x] = 0;
+      scene.data[y * 90 + x] = NaN;
+      scene.compactSky[y * 90 + x] = NaN;
+    }
   const scale = 2 / 3600; // 2″ pixels
   const dec0 = 30;
   const wcs = {

@@ -2,7 +2,7 @@
  * Test scenes with known truth for the source extractor: point sources rendered with the pixel-integrated PSF
  * on a known smooth background, plus Gaussian or Poisson noise from the seeded generator in samples/.
  */
-import { psfStamp, psfStampHalfSize, type Psf } from '../../../server/engine/psf';
+import { addStampToImage, psfStamp, psfStampHalfSize, type Psf } from '../../../server/engine/psf';
 import { SeededRandom } from '../../../samples/random';
 
 export interface TrueSource {
@@ -35,17 +35,7 @@ export function renderSources(
   for (const s of sources) {
     const cx = Math.round(s.x);
     const cy = Math.round(s.y);
-    const stamp = psfStamp(psf, s.x - cx, s.y - cy, h);
-    for (let j = -h; j <= h; j++) {
-      const y = cy + j;
-      if (y < 0 || y >= height) continue;
-      for (let i = -h; i <= h; i++) {
-        const x = cx + i;
-        if (x < 0 || x >= width) continue;
-        out[y * width + x] =
-          (out[y * width + x] as number) + s.flux * (stamp.values[(j + h) * stamp.size + i + h] as number);
-      }
-    }
+    addStampToImage(out, width, height, psfStamp(psf, s.x - cx, s.y - cy, h).values, h, cx, cy, s.flux);
   }
 }
 

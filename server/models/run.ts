@@ -1,0 +1,73 @@
+import type { RelationMappings } from 'objection';
+
+import type { RunDiagnostics, RunProgress, RunProvenance, RunStatus } from '../../shared/runs';
+import { BaseModel } from './base-model';
+
+/** One separation run of an image (migrations/202612020600-create-runs.ts). */
+export class Run extends BaseModel {
+  static override tableName = 'runs';
+
+  id!: number;
+  imageId!: number;
+  projectId!: number;
+  createdBy!: number | null;
+  status!: RunStatus;
+  requestedSettings!: Record<string, unknown>;
+  settings!: Record<string, unknown>;
+  settingsDigest!: string;
+  progress!: RunProgress | null;
+  errorMessage!: string | null;
+  attempts!: number;
+  cancelRequested!: boolean;
+  jobId!: string | null;
+  sourceCount!: number | null;
+  phasesMs!: Record<string, number> | null;
+  provenance!: RunProvenance | null;
+  diagnostics!: RunDiagnostics | null;
+  resultBytes!: number;
+  chargedUserId!: number | null;
+  startedAt!: Date | null;
+  finishedAt!: Date | null;
+
+  static override jsonAttributes = [
+    'requestedSettings',
+    'settings',
+    'progress',
+    'phasesMs',
+    'provenance',
+    'diagnostics',
+  ];
+
+  static override relationMappings = (): RelationMappings => ({
+    sources: {
+      relation: BaseModel.HasManyRelation,
+      modelClass: RunSource,
+      join: { from: 'runs.id', to: 'run_sources.runId' },
+    },
+    components: {
+      relation: BaseModel.HasManyRelation,
+      modelClass: RunComponent,
+      join: { from: 'runs.id', to: 'run_components.runId' },
+    },
+  });
+
+  static override jsonSchema = {
+    type: 'object',
+    required: ['imageId', 'projectId', 'status', 'requestedSettings', 'settings', 'settingsDigest'],
+    properties: {
+      id: { type: 'integer' },
+      imageId: { type: 'integer' },
+      projectId: { type: 'integer' },
+      createdBy: { type: ['integer', 'null'] },
+      status: { enum: ['queued', 'running', 'succeeded', 'failed', 'cancelled'] },
+      settingsDigest: { type: 'string', minLength: 1 },
+      errorMessage: { type: ['string', 'null'] },
+      attempts: { type: 'integer', minimum: 0 },
+      cancelRequested: { type: 'boolean' },
+      resultBytes: { type: 'integer', minimum: 0 },
+    },
+  };
+}
+
+import { RunComponent } from './run-component';
+import { RunSource } from './run-source';

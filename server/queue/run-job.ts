@@ -1,0 +1,255 @@
+/**
+ * What a worker does with one run job:
+ * 1. claim the run (queued or left running by a lost worker → running, attempts + 1); a cancelled or finished
+ *    run is left alone, a run cancelled while queued is marked cancelled;
+ * 2. load the image's float32 plane, mask and header and run the fit in a worker thread, writing throttled
+ *    progress and watching for a cancel request (the fit is aborted through its AbortSignal);
+ * 3. store the results in one transaction (runs/run-results.ts), or record why the run failed or was cancelled;
+ * 4. e-mail the run's creator if they asked for it.
+ * Engine refusals and the time limit fail the run (retrying would give the same answer); database errors while
+ * storing are rethrown so pg-boss retries the job.
+ */
+import type { Knex } from 'knex';
+
+import type { RunProgress, RunProvenance } from '../../shared/runs';
+import type { AppContext } from '../context';
+import type { HeaderCard } from '../engine/io/header-card';
+import { readBeam } from '../engine/io/fits-reader';
+import { FitCancelledError, runFitInThread } from '../runs/fit-thread';
+import { notifyRunFinished } from '../runs/run-mail';
+import { storeRunResults } from '../runs/run-results';
+import { AppError } from '../http/app-error';
+
+export type WorkerContext = Pick<AppContext, 'config' | 'knex' | 'mailer' | 'logger' | 'version'>;
+
+export interface RunJobOptions {
+  /** The fit's time limit. */
+  runTimeoutMs: number;
+  /** Aborted when the worker shuts down: the run goes back to the queue (the job is retried). */
+  shutdown?: AbortSignal;
+  /** How often the cancel flag is read and progress written. @default 500 */
+  pollMs?: number;
+}
+
+export class WorkerShutdownError extends Error {
+  constructor() {
+    super('The worker shut down before the run finished; it will be run again.');
+  }
+}
+
+interface ImageInput {
+  id: number;
+  name: string;
+  width: number;
+  height: number;
+  unit: string | null;
+  header: HeaderCard[];
+  uploadedById: number | null;
+  contentSha256: string;
+  pixels: Buffer;
+  mask: Buffer;
+}
+
+async function loadImage(knex: Knex, imageId: number): Promise<ImageInput | undefined> {
+  return (await knex('images')
+    .join('image_blobs', 'image_blobs.image_id', 'images.id')
+    .where('images.id', imageId)
+    .first(
+      'images.id',
+      'images.name',
+      'images.width',
+      'images.height',
+      'images.unit',
+      'images.header',
+      'images.uploaded_by_id',
+      'images.content_sha256',
+      'image_blobs.pixels',
+      'image_blobs.mask',
+    )) as ImageInput | undefined;
+}
+
+/** Copies little-endian float32 bytes into an aligned Float32Array of its own (transferable). */
+function pixelPlane(bytes: Buffer, count: number): Float32Array {
+  if (bytes.byteLength !== count * 4)
+    throw new Error(`The stored pixel plane has ${bytes.byteLength} bytes, expected ${count * 4}.`);
+  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  const out = new Float32Array(count);
+  for (let i = 0; i < count; i++) out[i] = view.getFloat32(i * 4, true);
+  return out;
+}
+
+async function finish(
+  knex: Knex,
+  runId: number,
+  status: 'failed' | 'cancelled' | 'queued',
+  errorMessage: string | null,
+): Promise<boolean> {
+  const updated = await knex('runs')
+    .where('id', runId)
+    .where('status', 'running')
+    .update({
+      status,
+      errorMessage,
+      finishedAt: status === 'queued' ? null : knex.fn.now(),
+      updatedAt: knex.fn.now(),
+    });
+  return updated > 0;
+}
+
+/** Runs (or re-runs) one run job to its end. */
+export async function processRunJob(
+  ctx: WorkerContext,
+  runId: number,
+  options: RunJobOptions,
+): Promise<void> {
+  const { knex } = ctx;
+  const claimed = await knex.transaction(async (trx) => {
+    const run = (await trx('runs')
+      .where('id', runId)
+      .forUpdate()
+      .first('status', 'cancelRequested', 'imageId', 'requestedSettings')) as
+      { status: string; cancelRequested: boolean; imageId: number; requestedSettings: unknown } | undefined;
+    if (!run || (run.status !== 'queued' && run.status !== 'running')) return null;
+    if (run.cancelRequested) {
+      await trx('runs')
+        .where('id', runId)
+        .update({ status: 'cancelled', finishedAt: trx.fn.now(), updatedAt: trx.fn.now() });
+      return null;
+    }
+    await trx('runs')
+      .where('id', runId)
+      .update({
+        status: 'running',
+        attempts: trx.raw('attempts + 1'),
+        startedAt: trx.fn.now(),
+        progress: null,
+        errorMessage: null,
+        updatedAt: trx.fn.now(),
+      });
+    return run;
+  });
+  if (!claimed) return;
+
+  const image = await loadImage(knex, claimed.imageId);
+  if (!image) {
+    if (await finish(knex, runId, 'failed', 'The image of this run no longer exists.'))
+      await notifyRunFinished(ctx, knex, runId);
+    return;
+  }
+
+  const controller = new AbortController();
+  let reason: 'cancel' | 'timeout' | 'shutdown' | null = null;
+  const abort = (why: typeof reason) => {
+    if (controller.signal.aborted) return;
+    reason = why;
+    controller.abort();
+  };
+  const onShutdown = () => abort('shutdown');
+  if (options.shutdown?.aborted) abort('shutdown');
+  options.shutdown?.addEventListener('abort', onShutdown, { once: true });
+  const timeout = setTimeout(() => abort('timeout'), options.runTimeoutMs);
+
+  let latest: RunProgress | null = null;
+  let written: RunProgress | null = null;
+  let polling = false;
+  const poll = setInterval(() => {
+    if (polling) return;
+    polling = true;
+    const progress = latest;
+    const write =
+      progress && progress !== written
+        ? knex('runs')
+            .where({ id: runId, status: 'running' })
+            .update({ progress: JSON.stringify(progress), updatedAt: knex.fn.now() })
+        : Promise.resolve(0);
+    void write
+      .then(() => {
+        written = progress;
+        return knex('runs').where('id', runId).first('status', 'cancelRequested');
+      })
+      .then((row: { status: string; cancelRequested: boolean } | undefined) => {
+        if (!row || row.cancelRequested || row.status !== 'running') abort('cancel');
+      })
+      .catch((error: unknown) => ctx.logger.error(error))
+      .finally(() => {
+        polling = false;
+      });
+  }, options.pollMs ?? 500);
+
+  const count = image.width * image.height;
+  try {
+    const mask = new Uint8Array(image.mask);
+    const result = await runFitInThread(
+      {
+        width: image.width,
+        height: image.height,
+        pixels: pixelPlane(image.pixels, count),
+        mask: mask.length === count ? mask : null,
+        header: image.header,
+        beam: readBeam(image.header),
+        unit: image.unit,
+        settings: claimed.requestedSettings,
+      },
+      { signal: controller.signal, onProgress: (p) => (latest = p) },
+    );
+    clearInterval(poll);
+    const provenance: RunProvenance = {
+      softwareName: 'Skysieve',
+      softwareVersion: ctx.version,
+      settingsDigest: result.settingsDigest,
+      inputSha256: image.contentSha256,
+      inputName: image.name,
+      width: image.width,
+      height: image.height,
+    };
+    try {
+      const outcome = await storeRunResults(knex, runId, result, provenance, image.uploadedById);
+      if (outcome === 'stored') await notifyRunFinished(ctx, knex, runId);
+    } catch (error) {
+      // Over quota: a person's problem, not the worker's; anything else (database) is retried by pg-boss.
+      if (!(error instanceof AppError)) throw error;
+      if (await finish(knex, runId, 'failed', `The results could not be stored: ${error.message}`)) {
+        await notifyRunFinished(ctx, knex, runId);
+      }
+    }
+  } catch (error) {
+    clearInterval(poll);
+    if (error instanceof FitCancelledError || controller.signal.aborted) {
+      if (reason === 'shutdown') {
+        await finish(knex, runId, 'queued', null);
+        throw new WorkerShutdownError();
+      }
+      if (reason === 'timeout') {
+        const minutes = Math.round((options.runTimeoutMs / 60_000) * 100) / 100;
+        const message = `The run took longer than the time limit of ${minutes} minutes (RUN_TIMEOUT_MINUTES) and was stopped.`;
+        if (await finish(knex, runId, 'failed', message)) await notifyRunFinished(ctx, knex, runId);
+        return;
+      }
+      await finish(knex, runId, 'cancelled', null);
+      return;
+    }
+    if (error instanceof Error && /stopped unexpectedly|database|ECONN|terminat/i.test(error.message))
+      throw error;
+    const message = error instanceof Error ? error.message : String(error);
+    if (await finish(knex, runId, 'failed', message)) await notifyRunFinished(ctx, knex, runId);
+  } finally {
+    clearTimeout(timeout);
+    clearInterval(poll);
+    options.shutdown?.removeEventListener('abort', onShutdown);
+  }
+}
+
+/** Dead-letter handler: a job that used up its retries (its workers kept dying or timing out). */
+export async function markRunLost(ctx: WorkerContext, runId: number, attempts: number): Promise<void> {
+  const { knex } = ctx;
+  const updated = await knex('runs')
+    .where('id', runId)
+    .whereIn('status', ['queued', 'running'])
+    .update({
+      status: 'failed',
+      errorMessage: `The run was started ${attempts} times and its worker stopped each time before it finished (the worker process ended or the run exceeded its time limit).`,
+      finishedAt: knex.fn.now(),
+      updatedAt: knex.fn.now(),
+    });
+  if (updated > 0) await notifyRunFinished(ctx, knex, runId);
+}

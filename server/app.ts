@@ -20,6 +20,7 @@ import { apiNotFound, errorHandler } from './http/error-handler';
 import { imageRoutes } from './images/images.routes';
 import { buildOpenApiDocument } from './openapi';
 import { projectRoutes } from './projects/projects.routes';
+import { runRoutes } from './runs/runs.routes';
 import { storageRoutes } from './storage/storage.routes';
 import { tokenRoutes } from './tokens/tokens.routes';
 
@@ -77,6 +78,7 @@ export function createApp(ctx: AppContext, options: AppOptions = {}): SkysieveAp
     ...adminRoutes,
     ...imageRoutes(ctx),
     ...storageRoutes(ctx),
+    ...runRoutes(ctx),
     ...(options.extraRoutes ?? []),
   ];
   const openApiDocument = buildOpenApiDocument(routes, ctx.version);

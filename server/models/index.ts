@@ -6,4 +6,7 @@ export { Invitation } from './invitation';
 export { Membership } from './membership';
 export { PasswordReset } from './password-reset';
 export { Project } from './project';
+export { Run } from './run';
+export { RunComponent } from './run-component';
+export { RunSource } from './run-source';
 export { User } from './user';

@@ -176,10 +176,18 @@ export function encodePixelView(view: PixelView): Uint8Array {
   const bytes = new Uint8Array(PIXEL_VIEW_HEADER_BYTES + view.data.length * 4);
   const header = new DataView(bytes.buffer);
   for (let i = 0; i < 4; i++) header.setUint8(i, PIXEL_VIEW_MAGIC.charCodeAt(i));
-  const fields = [PIXEL_VIEW_VERSION, view.width, view.height, view.factor, view.sourceWidth, view.sourceHeight];
+  const fields = [
+    PIXEL_VIEW_VERSION,
+    view.width,
+    view.height,
+    view.factor,
+    view.sourceWidth,
+    view.sourceHeight,
+  ];
   fields.push(view.blankPixels);
   fields.forEach((value, k) => header.setUint32(4 + 4 * k, value, true));
-  for (let i = 0; i < view.data.length; i++) header.setFloat32(PIXEL_VIEW_HEADER_BYTES + 4 * i, view.data[i]!, true);
+  for (let i = 0; i < view.data.length; i++)
+    header.setFloat32(PIXEL_VIEW_HEADER_BYTES + 4 * i, view.data[i]!, true);
   return bytes;
 }
 
@@ -188,7 +196,8 @@ export function decodePixelView(bytes: Uint8Array): PixelView {
   if (bytes.length < PIXEL_VIEW_HEADER_BYTES) throw new Error('Pixel view: shorter than its header.');
   const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   const magic = String.fromCharCode(...bytes.subarray(0, 4));
-  if (magic !== PIXEL_VIEW_MAGIC) throw new Error(`Pixel view: magic is "${magic}", expected "${PIXEL_VIEW_MAGIC}".`);
+  if (magic !== PIXEL_VIEW_MAGIC)
+    throw new Error(`Pixel view: magic is "${magic}", expected "${PIXEL_VIEW_MAGIC}".`);
   const field = (k: number) => view.getUint32(4 + 4 * k, true);
   if (field(0) !== PIXEL_VIEW_VERSION) throw new Error(`Pixel view: version ${field(0)} is not supported.`);
   const width = field(1);
@@ -198,7 +207,15 @@ export function decodePixelView(bytes: Uint8Array): PixelView {
   }
   const data = new Float32Array(width * height);
   for (let i = 0; i < data.length; i++) data[i] = view.getFloat32(PIXEL_VIEW_HEADER_BYTES + 4 * i, true);
-  return { width, height, factor: field(3), sourceWidth: field(4), sourceHeight: field(5), blankPixels: field(6), data };
+  return {
+    width,
+    height,
+    factor: field(3),
+    sourceWidth: field(4),
+    sourceHeight: field(5),
+    blankPixels: field(6),
+    data,
+  };
 }
 
 /** Storage used by one account, for GET /api/admin/storage. */

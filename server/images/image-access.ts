@@ -10,6 +10,8 @@ import { Image } from '../models/image';
 import { findProjectAccess, hasRole } from '../projects/project-access';
 
 declare global {
+  // Express's request type is extended by declaration merging into its global namespace.
+  // eslint-disable-next-line @typescript-eslint/no-namespace
   namespace Express {
     interface Request {
       /** Set by loadImage(): the image row (without its blobs). */

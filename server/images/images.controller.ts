@@ -40,7 +40,8 @@ export function imagesController(ctx: AppContext) {
       const file = req.file;
       if (!file) throw badRequest(missingFileMessage);
       const fields = uploadImageFieldsSchema.safeParse(req.body ?? {});
-      if (!fields.success) throw badRequest(fields.error.issues[0]?.message ?? 'The upload fields are not valid.');
+      if (!fields.success)
+        throw badRequest(fields.error.issues[0]?.message ?? 'The upload fields are not valid.');
       const bytes = new Uint8Array(await readFile(file.path));
       const summary = await images.uploadImage(
         currentUser(req),
@@ -71,8 +72,11 @@ export function imagesController(ctx: AppContext) {
     async original(req: ApiRequest<unknown, IdParams>, res: Response) {
       const image = imageOf(req);
       const bytes = await images.originalBytes(image.id);
-      res.type(image.gzipped ? 'application/gzip' : (contentTypes[image.format] ?? 'application/octet-stream'));
+      // attachment() guesses a type from the file name; set ours after it (FITS: application/fits, RFC 4047).
       res.attachment(image.originalFileName || `image-${image.id}`);
+      res.type(
+        image.gzipped ? 'application/gzip' : (contentTypes[image.format] ?? 'application/octet-stream'),
+      );
       res.setHeader('Cache-Control', 'private, no-cache');
       res.send(bytes);
     },

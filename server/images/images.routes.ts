@@ -23,7 +23,7 @@ export function imageRoutes(ctx: AppContext): AnyRouteSpec[] {
       path: '/api/projects/:id/images',
       summary:
         'Upload an image (multipart/form-data: field "file"; optional "name", "plane" for a FITS cube). ' +
-        'FITS (also gzip-compressed), TIFF, PNG or JPEG; counts against the uploader\'s quota (owners, editors, admins)',
+        "FITS (also gzip-compressed), TIFF, PNG or JPEG; counts against the uploader's quota (owners, editors, admins)",
       tag,
       access: 'signed-in',
       params: projectIdParamsSchema,

@@ -22,7 +22,8 @@ import { imageNotFoundMessage } from './image-access';
 import { thumbnailPng } from './thumbnail';
 
 // Float32Array bytes are written as they lie in memory; the stored plane is documented as little-endian.
-if (endianness() !== 'LE') throw new Error('Skysieve stores float32 planes little-endian and needs a little-endian CPU.');
+if (endianness() !== 'LE')
+  throw new Error('Skysieve stores float32 planes little-endian and needs a little-endian CPU.');
 
 export const duplicateMessage = (name: string) => `This image is already in the project as «${name}».`;
 
@@ -67,13 +68,15 @@ export function toSummary(image: ImageRow): ImageSummary {
 }
 
 function withUploader<Q extends ReturnType<typeof Image.query>>(query: Q): Q {
-  return query.leftJoin('users', 'users.id', 'images.uploadedById').select('users.displayName as uploaderName') as Q;
+  return query
+    .leftJoin('users', 'users.id', 'images.uploadedById')
+    .select('users.displayName as uploaderName') as Q;
 }
 
 async function summaryById(id: number, trx?: Knex.Transaction): Promise<ImageSummary> {
-  const row = (await withUploader(Image.query(trx).modify('summaryColumns').where('images.id', id)).first()) as
-    | ImageRow
-    | undefined;
+  const row = (await withUploader(
+    Image.query(trx).modify('summaryColumns').where('images.id', id),
+  ).first()) as ImageRow | undefined;
   if (!row) throw notFound(imageNotFoundMessage);
   return toSummary(row);
 }
@@ -84,7 +87,8 @@ async function refuseDuplicate(projectId: number, sha256: string, trx?: Knex.Tra
 }
 
 function readError(error: unknown): never {
-  if (error instanceof ImageReadError) throw new AppError('unprocessable', error.message, { reason: error.code });
+  if (error instanceof ImageReadError)
+    throw new AppError('unprocessable', error.message, { reason: error.code });
   throw error;
 }
 
@@ -170,14 +174,16 @@ export async function uploadImage(
 export async function listImages(projectId: number): Promise<ImageSummary[]> {
   const rows = (await withUploader(
     Image.query().modify('summaryColumns').where('images.projectId', projectId),
-  ).orderBy([{ column: 'images.createdAt', order: 'desc' }, { column: 'images.id', order: 'desc' }])) as ImageRow[];
+  ).orderBy([
+    { column: 'images.createdAt', order: 'desc' },
+    { column: 'images.id', order: 'desc' },
+  ])) as ImageRow[];
   return rows.map(toSummary);
 }
 
 export async function imageDetail(id: number): Promise<ImageDetail> {
   const row = (await withUploader(Image.query().select('images.*').where('images.id', id)).first()) as
-    | ImageRow
-    | undefined;
+    ImageRow | undefined;
   if (!row) throw notFound(imageNotFoundMessage);
   return { ...toSummary(row), header: row.header, originalAxes: row.originalAxes };
 }
@@ -199,8 +205,7 @@ type BlobColumn = 'original' | 'thumbnail' | 'pixels' | 'mask';
 
 async function blob(id: number, column: BlobColumn): Promise<Buffer> {
   const row = (await Image.knex()('image_blobs').select(column).where('image_id', id).first()) as
-    | Record<BlobColumn, Buffer>
-    | undefined;
+    Record<BlobColumn, Buffer> | undefined;
   if (!row) throw notFound(imageNotFoundMessage);
   return row[column];
 }
@@ -210,9 +215,10 @@ export const thumbnailBytes = (id: number) => blob(id, 'thumbnail');
 
 /** The stored float32 plane and mask of an image. */
 export async function pixelPlane(image: Image): Promise<{ data: Float32Array; mask: Uint8Array }> {
-  const row = (await Image.knex()('image_blobs').select('pixels', 'mask').where('image_id', image.id).first()) as
-    | { pixels: Buffer; mask: Buffer }
-    | undefined;
+  const row = (await Image.knex()('image_blobs')
+    .select('pixels', 'mask')
+    .where('image_id', image.id)
+    .first()) as { pixels: Buffer; mask: Buffer } | undefined;
   if (!row) throw notFound(imageNotFoundMessage);
   // Copy into an aligned buffer: a Buffer's byteOffset need not be a multiple of 4.
   const data = new Float32Array(image.width * image.height);

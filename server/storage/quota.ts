@@ -40,7 +40,11 @@ function checkBytes(bytes: number): void {
 
 function refuseOverQuota(state: QuotaState, bytes: number): void {
   if (state.bytesUsed + bytes <= state.quotaBytes) return;
-  const details: QuotaExceededDetails = { usedBytes: state.bytesUsed, quotaBytes: state.quotaBytes, neededBytes: bytes };
+  const details: QuotaExceededDetails = {
+    usedBytes: state.bytesUsed,
+    quotaBytes: state.quotaBytes,
+    neededBytes: bytes,
+  };
   throw new AppError('payload_too_large', quotaExceededMessage(details), details);
 }
 
@@ -51,8 +55,7 @@ function refuseOverQuota(state: QuotaState, bytes: number): void {
 export async function precheckQuota(knex: Knex, userId: number, bytes: number): Promise<void> {
   checkBytes(bytes);
   const state = (await knex('users').select('quota_bytes', 'bytes_used').where('id', userId).first()) as
-    | QuotaState
-    | undefined;
+    QuotaState | undefined;
   if (!state) throw notFound('That account does not exist.');
   refuseOverQuota(state, bytes);
 }

@@ -18,7 +18,7 @@
  * curvature errors of the MAP objective are far too small (measured, METHOD-NOTES).
  */
 import type { CatalogueSource, SourceFlag } from '../../../shared/catalogue';
-import { FWHM_PER_SIGMA, psfFwhmPx, psfStamp, psfStampHalfSize, type Psf } from '../psf';
+import { FWHM_PER_SIGMA, psfCovariance, psfFwhmPx, psfStamp, psfStampHalfSize, type Psf } from '../psf';
 import { groupCompactField } from './group-compact-field';
 import {
   groupErrors,
@@ -141,6 +141,7 @@ export function extractSources(input: ExtractSourcesInput): CatalogueSource[] {
   for (let i = 0; i < n; i++) valid[i] = mask[i] && Number.isFinite(data[i] as number) ? 1 : 0;
 
   const fwhm = psfFwhmPx(psf);
+  const covariance = psfCovariance(psf);
   const meanFwhm = Math.sqrt(fwhm.major * fwhm.minor);
   const sumP2 = psfSumOfSquares(psf);
 
@@ -322,16 +323,17 @@ export function extractSources(input: ExtractSourcesInput): CatalogueSource[] {
     if ((perFootprint.get(s.footprint) ?? 0) > 1) flags.push('blended');
     const x = s.x + 1;
     const y = s.y + 1;
+    // A position held at its seed (too faint to fit one) gets the PSF σ per axis as a conservative error.
+    const xErr = Number.isFinite(e.xErr) ? e.xErr : Math.sqrt(covariance.xx);
+    const yErr = Number.isFinite(e.yErr) ? e.yErr : Math.sqrt(covariance.yy);
     let ra: number | null = null;
     let dec: number | null = null;
     let raErrArcsec: number | null = null;
     let decErrArcsec: number | null = null;
     if (options.wcs) {
-      const world = worldPosition(options.wcs, x, y, e.xErr, e.yErr, e.xyCov);
+      const world = worldPosition(options.wcs, x, y, xErr, yErr, Number.isFinite(e.xErr) ? e.xyCov : 0);
       if (world) ({ ra, dec, raErrArcsec, decErrArcsec } = world);
     }
-    const xErr = Number.isFinite(e.xErr) ? e.xErr : 0;
-    const yErr = Number.isFinite(e.yErr) ? e.yErr : 0;
     return {
       id: index + 1,
       x,

@@ -345,7 +345,8 @@ export function refitSource(
       options.maxShiftPx &&
     Math.abs((full[1] as number) - cx) <= w &&
     Math.abs((full[2] as number) - cy) <= w;
-  const start = [Math.max(source.flux, 0), source.x, source.y];
+  // Poisson: start slightly above zero flux so λ > 0 wherever counts were seen, even on a zero background.
+  const start = [Math.max(source.flux, poisson ? 1e-3 : 0), source.x, source.y];
   let theta: number[] | null = null;
   if (!source.positionFixed && source.flux > 0) {
     const full = levenberg(3, start);

@@ -483,3 +483,46 @@ describe('other PSFs and noise maps', () => {
     check(median(right) / median(left), 2.2, 3.0, 'flux-error ratio right/left');
   });
 });
+
+describe('the catalogue contract', () => {
+  it('every row parses with the shared catalogue schema, in Gaussian and Poisson mode, also on a zero background', async () => {
+    const { catalogueSourceSchema } = await import('../../../shared/catalogue');
+    const truth: TrueSource[] = [
+      { x: 20.3, y: 20.7, flux: 60 },
+      { x: 50.6, y: 24.2, flux: 25 },
+      { x: 30.1, y: 45.5, flux: 400 },
+    ];
+    const counts = makeScene({
+      width: 70,
+      height: 64,
+      psf,
+      sources: truth,
+      background: () => 0,
+      noise: { kind: 'poisson' },
+      seed: 21,
+    });
+    const poisson = extractSources(inputFor(counts, { noise: { kind: 'poisson' } }));
+    // On a zero background every count belongs to a source: all three are found, highly significant.
+    expect(poisson.length).toBe(3);
+    for (const c of poisson) {
+      expect(() => catalogueSourceSchema.parse(c)).not.toThrow();
+      expect(c.significance!).toBeGreaterThan(c.snr);
+      expect(c.xErr).toBeGreaterThan(0);
+    }
+    const gaussian = extractSources(
+      inputFor(
+        makeScene({
+          width: 70,
+          height: 64,
+          psf,
+          sources: truth,
+          background: () => 3,
+          noise: { kind: 'gaussian', sigma },
+          seed: 22,
+        }),
+      ),
+    );
+    expect(gaussian.length).toBe(3);
+    for (const c of gaussian) expect(() => catalogueSourceSchema.parse(c)).not.toThrow();
+  });
+});

@@ -94,14 +94,13 @@ describe('SeededRandom', () => {
       const lo = Math.max(0, Math.floor(lambda - 5 * Math.sqrt(lambda)));
       const hi = Math.ceil(lambda + 5 * Math.sqrt(lambda)) + 3;
       const bins: { expected: number; observed: number }[] = [];
-      let pending = { expected: 0, observed: 0 };
       let below = 0;
       let belowObserved = 0;
       for (let k = 0; k < lo; k++) {
         below += n * poissonPmf(k, lambda);
         belowObserved += counts.get(k) ?? 0;
       }
-      pending = { expected: below, observed: belowObserved };
+      let pending = { expected: below, observed: belowObserved };
       for (let k = lo; k <= hi; k++) {
         pending.expected += n * poissonPmf(k, lambda);
         pending.observed += counts.get(k) ?? 0;

@@ -2,8 +2,5 @@
 # npm test: install npm dependencies when missing or stale, then run every suite against a throwaway PostgreSQL.
 set -euo pipefail
 cd "$(dirname "$0")/.."
-if [ ! -d node_modules ] || [ ! -f node_modules/.package-lock.json ] || [ package-lock.json -nt node_modules/.package-lock.json ]; then
-  echo "Installing npm dependencies (npm ci)…"
-  npm ci
-fi
+. scripts/lib/ensure-npm-deps.sh
 exec npx tsx scripts/test.ts "$@"

@@ -102,11 +102,18 @@ export function uploadWithToken(
     .attach('file', bytes, fileName);
 }
 
-/** Binary response bodies as a Buffer (supertest leaves octet-stream and PNG unparsed without this). */
-export function binary(res: Response, callback: (error: Error | null, body: Buffer) => void): void {
-  const stream = res as unknown as NodeJS.ReadableStream;
+/**
+ * Binary response bodies as a Buffer (supertest leaves octet-stream and PNG unparsed without this);
+ * JSON error bodies are still parsed.
+ */
+export function binary(res: Response, callback: (error: Error | null, body: unknown) => void): void {
+  const stream = res as unknown as NodeJS.ReadableStream & { headers: Record<string, string | undefined> };
   const chunks: Buffer[] = [];
   stream.on('data', (chunk: Buffer) => chunks.push(chunk));
-  stream.on('end', () => callback(null, Buffer.concat(chunks)));
+  stream.on('end', () => {
+    const body = Buffer.concat(chunks);
+    const json = (stream.headers['content-type'] ?? '').startsWith('application/json');
+    callback(null, json ? (JSON.parse(body.toString('utf8')) as unknown) : body);
+  });
   stream.on('error', (error: Error) => callback(error, Buffer.alloc(0)));
 }

@@ -24,7 +24,7 @@ export const imageNotFoundMessage = 'Image not found.';
 
 const roleMessages: Record<ProjectRole, string> = {
   viewer: 'You need to be a member of this project.',
-  editor: 'Only project owners and editors can change images.',
+  editor: 'Only project owners and editors can do this.',
   owner: 'Only project owners can do this.',
 };
 

@@ -23,7 +23,11 @@ function newestMtime(target: string): number {
 }
 
 /** Runs `vite build` when dist/ is missing or older than the client sources. Returns false if it failed. */
-function buildClientIfStale(): boolean {
+function buildClientIfStale(skip: boolean): boolean {
+  if (skip) {
+    console.log('[start] SKIP_CLIENT_BUILD is set: serving dist/ as it is.');
+    return true;
+  }
   if (!existsSync('index.html')) {
     console.log('[start] No index.html: skipping the client build (API only).');
     return true;
@@ -40,7 +44,7 @@ function buildClientIfStale(): boolean {
 
 const config = readConfig();
 const database = await bootDatabase(config);
-if (!buildClientIfStale()) {
+if (!buildClientIfStale(config.skipClientBuild)) {
   await database.stop();
   fail('The client build failed (see above).');
 }

@@ -61,6 +61,7 @@ const environmentSchema = z.object({
   WORKER_CONCURRENCY: z.coerce.number().int().positive().default(1),
   RUN_TIMEOUT_MINUTES: z.coerce.number().int().positive().default(60),
   LOG_REQUESTS: booleanFromEnv.default(false),
+  SKIP_CLIENT_BUILD: booleanFromEnv.default(false),
 });
 
 export interface Config {
@@ -107,6 +108,8 @@ export interface Config {
   workerConcurrency: number;
   runTimeoutMinutes: number;
   logRequests: boolean;
+  /** `npm start` serves dist/ as it is, without rebuilding a stale client. */
+  skipClientBuild: boolean;
 }
 
 export class ConfigError extends Error {}
@@ -177,5 +180,6 @@ export function loadConfig(env: NodeJS.ProcessEnv = process.env): Config {
     workerConcurrency: e.WORKER_CONCURRENCY,
     runTimeoutMinutes: e.RUN_TIMEOUT_MINUTES,
     logRequests: e.LOG_REQUESTS,
+    skipClientBuild: e.SKIP_CLIENT_BUILD,
   };
 }

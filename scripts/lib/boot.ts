@@ -3,6 +3,7 @@
  * cluster in .data/pg, installing Debian's postgresql first when root), migrate, seed, bootstrap the admin.
  */
 import { spawnSync } from 'node:child_process';
+import { existsSync } from 'node:fs';
 import path from 'node:path';
 
 import { type Config, ConfigError, loadConfig } from '../../server/config';
@@ -16,7 +17,13 @@ export function fail(message: string): never {
   process.exit(1);
 }
 
+/** Reads the configuration; a `.env` file in the project folder fills in variables not set in the environment. */
 export function readConfig(): Config {
+  if (existsSync('.env')) {
+    // Node's loader keeps variables that are already set.
+    process.loadEnvFile('.env');
+    console.log('[start] Read settings from .env');
+  }
   try {
     return loadConfig();
   } catch (error) {

@@ -62,7 +62,7 @@ async function fixture(): Promise<Fixture> {
   const image = await uploadImage(
     owner!,
     project.id,
-    { bytes: fitsFile(noisePlane(32, 24, seed++)), originalName: 'matrix.fits' },
+    { path: '', bytes: fitsFile(noisePlane(32, 24, seed++)), originalName: 'matrix.fits' },
     { maxPixels: t.ctx.config.maxImagePixels },
   );
   return {

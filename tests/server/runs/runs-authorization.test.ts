@@ -1,0 +1,197 @@
+// @vitest-environment node
+/**
+ * Authorization matrix for runs and their results. Actors: admin (not a member), owner, editor, viewer,
+ * signed-in non-member, signed-out, and a Bearer token of the owner. Invisible → 404 (never 403), visible but
+ * not allowed → 403, signed out → 401; refused calls change nothing. No worker runs here: new runs stay queued,
+ * and the finished run the read routes use is written straight into the tables.
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+
+import { float32ToBytes } from '../../../server/models/run-component';
+import { Run } from '../../../server/models/run';
+import type { User } from '../../../server/models/user';
+import { stopRunQueue } from '../../../server/queue/run-queue';
+import { createToken } from '../../../server/tokens/tokens.service';
+import {
+  BrowserClient,
+  createUser,
+  signIn,
+  startTestApp,
+  type TestApp,
+  TokenClient,
+} from '../../support/test-app';
+import { fastSettings, type RunFixture, runFixture } from './run-support';
+
+type Actor = 'admin' | 'owner' | 'editor' | 'viewer' | 'non-member' | 'signed-out' | 'owner token';
+const actors: Actor[] = ['admin', 'owner', 'editor', 'viewer', 'non-member', 'signed-out', 'owner token'];
+type Caller = Pick<BrowserClient, 'get' | 'post'>;
+
+let t: TestApp;
+let f: RunFixture;
+let finishedRunId = 0;
+const callers = new Map<Actor, Caller>();
+
+beforeAll(async () => {
+  t = await startTestApp();
+  f = await runFixture(t.ctx);
+  const admin = await createUser(t.ctx, { role: 'admin' });
+  const outsider = await createUser(t.ctx);
+  const signedIn = async (user: User) => signIn(t.app, user.email);
+  callers.set('admin', await signedIn(admin));
+  callers.set('owner', await signedIn(f.owner));
+  callers.set('editor', await signedIn(f.editor));
+  callers.set('viewer', await signedIn(f.viewer));
+  callers.set('non-member', await signedIn(outsider));
+  callers.set('signed-out', new BrowserClient(t.app));
+  callers.set('owner token', new TokenClient(t.app, (await createToken(f.owner, 'runs matrix', null)).token));
+  finishedRunId = await insertFinishedRun();
+}, 60_000);
+
+afterAll(async () => {
+  await stopRunQueue(t.ctx);
+  await t.close();
+});
+
+async function insertFinishedRun(): Promise<number> {
+  const run = await Run.query().insertAndFetch({
+    imageId: f.imageId,
+    projectId: f.project.id,
+    createdBy: f.owner.id,
+    status: 'succeeded',
+    requestedSettings: {},
+    settings: {},
+    settingsDigest: 'f'.repeat(64),
+    attempts: 1,
+    cancelRequested: false,
+    resultBytes: 0,
+    sourceCount: 1,
+    finishedAt: new Date(),
+  });
+  await t.ctx.knex('run_sources').insert({
+    runId: run.id,
+    sourceId: 1,
+    x: 10,
+    y: 12,
+    xErr: 0.1,
+    yErr: 0.1,
+    ra: 283.7,
+    dec: 38.6,
+    raErrArcsec: 0.2,
+    decErrArcsec: 0.2,
+    flux: 0.01,
+    fluxErr: 0.001,
+    fluxDensity: null,
+    fluxDensityErr: null,
+    snr: 10,
+    significance: null,
+    flags: [],
+  });
+  const data = float32ToBytes(new Float32Array(64 * 64).fill(1));
+  await t.ctx
+    .knex('run_components')
+    .insert({ runId: run.id, name: 'model', width: 64, height: 64, data, byteSize: data.byteLength });
+  return run.id;
+}
+
+const read = {
+  admin: 200,
+  owner: 200,
+  editor: 200,
+  viewer: 200,
+  'non-member': 404,
+  'signed-out': 401,
+  'owner token': 200,
+};
+const write = (ok: number) => ({
+  admin: ok,
+  owner: ok,
+  editor: ok,
+  viewer: 403,
+  'non-member': 404,
+  'signed-out': 401,
+  'owner token': ok,
+});
+
+interface Action {
+  name: string;
+  call(caller: Caller): Promise<{ status: number; body: any }>;
+  expected: Record<Actor, number>;
+  /** Runs once before each actor's call (e.g. a fresh queued run to cancel). */
+  prepare?(): Promise<void>;
+}
+
+let queuedRunId = 0;
+const runCount = async () => Number((await t.ctx.knex('runs').count({ n: '*' }))[0]!.n);
+
+const actions: Action[] = [
+  {
+    name: 'start a run',
+    call: async (c) => c.post(`/api/images/${f.imageId}/runs`, { settings: fastSettings }),
+    expected: write(202),
+  },
+  {
+    name: 'list runs of the image',
+    call: async (c) => c.get(`/api/images/${f.imageId}/runs`),
+    expected: read,
+  },
+  { name: 'read a run', call: async (c) => c.get(`/api/runs/${finishedRunId}`), expected: read },
+  {
+    name: 'read its sources',
+    call: async (c) => c.get(`/api/runs/${finishedRunId}/sources`),
+    expected: read,
+  },
+  {
+    name: 'download its sources',
+    call: async (c) => c.get(`/api/runs/${finishedRunId}/sources?format=csv`),
+    expected: read,
+  },
+  {
+    name: 'read a component',
+    call: async (c) => c.get(`/api/runs/${finishedRunId}/components/model?maxSize=16`),
+    expected: read,
+  },
+  {
+    name: 'cut out pixels',
+    call: async (c) => c.get(`/api/runs/${finishedRunId}/cutout?x=10&y=12&size=5`),
+    expected: read,
+  },
+  {
+    name: 'cancel a queued run',
+    prepare: async () => {
+      const run = await Run.query().insertAndFetch({
+        imageId: f.imageId,
+        projectId: f.project.id,
+        createdBy: f.owner.id,
+        status: 'queued',
+        requestedSettings: {},
+        settings: {},
+        settingsDigest: 'e'.repeat(64),
+        attempts: 0,
+        cancelRequested: false,
+        resultBytes: 0,
+      });
+      queuedRunId = run.id;
+    },
+    call: async (c) => c.post(`/api/runs/${queuedRunId}/cancel`),
+    expected: write(200),
+  },
+];
+
+describe.each(actions)('$name', (action) => {
+  it.each(actors)('as %s', async (actor) => {
+    await action.prepare?.();
+    const before = await runCount();
+    const response = await action.call(callers.get(actor)!);
+    const expected = action.expected[actor];
+    expect(response.status, `${action.name} as ${actor}: ${JSON.stringify(response.body)}`).toBe(expected);
+    if (expected === 404) expect(response.body.error.message).toMatch(/^(Image|Run) not found\.$/);
+    if (expected === 401) expect(response.body.error.message).toBe('Sign in to continue.');
+    if (expected === 403)
+      expect(response.body.error.message).toBe('Only project owners and editors can start or cancel runs.');
+    if (action.name === 'start a run') expect(await runCount()).toBe(before + (expected === 202 ? 1 : 0));
+    if (action.name === 'cancel a queued run') {
+      const run = await Run.query().findById(queuedRunId);
+      expect(run!.status).toBe(expected === 200 ? 'cancelled' : 'queued');
+    }
+  });
+});

@@ -2,12 +2,20 @@
  * What the service stores about an image beside its pixels: statistics of the valid pixels, a robust noise σ,
  * and people-readable summaries of its WCS and beam. Pure functions of a SkyImage.
  */
-import type { BeamSummary, NoiseEstimate, PixelStatistics, WcsSummary } from '../../shared/images';
+import type {
+  BeamSummary,
+  ImageFormatName,
+  NoiseEstimate,
+  PixelStatistics,
+  WcsSummary,
+} from '../../shared/images';
+import type { HeaderCard } from '../engine/io/header-card';
 import type { SkyImage } from '../engine/io/sky-image';
 import { medianInPlace } from '../engine/noise/median';
 import { estimateNoiseSigma } from '../engine/noise/robust-sigma';
 import { psfBeamAreaPx, psfFromBeam } from '../engine/psf';
 import type { Wcs } from '../engine/wcs/wcs';
+import { thumbnailPng } from './thumbnail';
 
 /**
  * Min, max, mean, median and standard deviation of the valid pixels (mask = 1), and the valid / blank counts.
@@ -103,5 +111,47 @@ export function beamSummary(image: SkyImage): BeamSummary | null {
     minorArcsec: beam.minorDeg * 3600,
     paDeg: beam.paDeg,
     areaPixels,
+  };
+}
+
+/** Everything stored about a read image; plain data (no functions), so it can cross a thread boundary. */
+export interface AnalysedImage {
+  format: ImageFormatName;
+  width: number;
+  height: number;
+  plane: number | null;
+  originalAxes: number[];
+  unit: string | null;
+  header: HeaderCard[];
+  warnings: string[];
+  wcs: WcsSummary | null;
+  beam: BeamSummary | null;
+  statistics: PixelStatistics;
+  noise: NoiseEstimate | null;
+  /** The float32 plane, row 0 = FITS y = 1, blank pixels 0. */
+  pixels: Float32Array;
+  /** 1 = valid, 0 = blank. */
+  mask: Uint8Array;
+  /** PNG bytes. */
+  thumbnail: Uint8Array;
+}
+
+export function analyseImage(image: SkyImage): AnalysedImage {
+  return {
+    format: image.format,
+    width: image.width,
+    height: image.height,
+    plane: image.plane,
+    originalAxes: image.originalAxes,
+    unit: image.unit,
+    header: image.header,
+    warnings: image.warnings,
+    wcs: wcsSummary(image.wcs, image.width, image.height),
+    beam: beamSummary(image),
+    statistics: pixelStatistics(image.data, image.mask),
+    noise: noiseEstimate(image),
+    pixels: image.data,
+    mask: image.mask,
+    thumbnail: new Uint8Array(thumbnailPng(image.data, image.mask, image.width, image.height)),
   };
 }

@@ -46,7 +46,7 @@ export function imagesController(ctx: AppContext) {
       const summary = await images.uploadImage(
         currentUser(req),
         projectAccessOf(req).project.id,
-        { bytes, originalName: file.originalname },
+        { path: file.path, bytes, originalName: file.originalname },
         { ...fields.data, maxPixels: ctx.config.maxImagePixels },
       );
       res.status(201).json(summary);

@@ -8,18 +8,17 @@ import { endianness } from 'node:os';
 import type { Knex } from 'knex';
 import { UniqueViolationError } from 'objection';
 
-import type { ImageDetail, ImageFormatName, ImageSummary } from '../../shared/images';
+import type { ImageDetail, ImageSummary } from '../../shared/images';
 import { encodePixelView } from '../../shared/images';
-import { readImageAsync, ImageReadError, type SkyImage } from '../engine/io/read-image';
+import { ImageReadError } from '../engine/io/read-image';
 import { AppError, conflict, notFound } from '../http/app-error';
 import { isoDate } from '../models/base-model';
 import { Image } from '../models/image';
 import type { User } from '../models/user';
 import { chargeQuota, precheckQuota } from '../storage/quota';
-import { beamSummary, noiseEstimate, pixelStatistics, wcsSummary } from './image-analysis';
+import { analyseUpload } from './analysis-thread';
 import { downsampleMean } from './downsample';
 import { imageNotFoundMessage } from './image-access';
-import { thumbnailPng } from './thumbnail';
 
 // Float32Array bytes are written as they lie in memory; the stored plane is documented as little-endian.
 if (endianness() !== 'LE')
@@ -29,6 +28,8 @@ export const duplicateMessage = (name: string) => `This image is already in the 
 
 export interface UploadedFile {
   /** Temporary file holding the upload. */
+  path: string;
+  /** Its content. */
   bytes: Uint8Array;
   originalName: string;
 }
@@ -86,24 +87,14 @@ async function refuseDuplicate(projectId: number, sha256: string, trx?: Knex.Tra
   if (existing) throw conflict(duplicateMessage(existing.name), { imageId: existing.id });
 }
 
+/** The bytes of a typed array as a Buffer, without copying. */
+const bufferOf = (array: Float32Array | Uint8Array): Buffer =>
+  Buffer.from(array.buffer, array.byteOffset, array.byteLength);
+
 function readError(error: unknown): never {
   if (error instanceof ImageReadError)
     throw new AppError('unprocessable', error.message, { reason: error.code });
   throw error;
-}
-
-/** Everything stored about a read image, computed before the transaction opens. */
-function analyse(image: SkyImage) {
-  const pixels = Buffer.from(image.data.buffer, image.data.byteOffset, image.data.byteLength);
-  return {
-    statistics: pixelStatistics(image.data, image.mask),
-    noise: noiseEstimate(image),
-    wcs: wcsSummary(image.wcs, image.width, image.height),
-    beam: beamSummary(image),
-    thumbnail: thumbnailPng(image.data, image.mask, image.width, image.height),
-    pixels,
-    mask: Buffer.from(image.mask.buffer, image.mask.byteOffset, image.mask.byteLength),
-  };
 }
 
 /**
@@ -122,12 +113,11 @@ export async function uploadImage(
   await refuseDuplicate(projectId, sha256);
   await precheckQuota(Image.knex(), user.id, bytes.length);
 
-  const image = await readImageAsync(bytes, {
+  const image = await analyseUpload(file.path, bytes, {
     fileName: file.originalName,
     plane: options.plane,
     maxPixels: options.maxPixels,
   }).catch(readError);
-  const stored = analyse(image);
   const name = (options.name ?? file.originalName).trim().slice(0, 200) || 'image';
 
   try {
@@ -138,7 +128,7 @@ export async function uploadImage(
         uploadedById: user.id,
         name,
         originalFileName: file.originalName.slice(0, 1000),
-        format: image.format as ImageFormatName,
+        format: image.format,
         gzipped: bytes[0] === 0x1f && bytes[1] === 0x8b,
         contentSha256: sha256,
         fileBytes: bytes.length,
@@ -148,18 +138,18 @@ export async function uploadImage(
         originalAxes: image.originalAxes,
         unit: image.unit,
         header: image.header,
-        wcs: stored.wcs,
-        beam: stored.beam,
-        statistics: stored.statistics,
-        noise: stored.noise,
+        wcs: image.wcs,
+        beam: image.beam,
+        statistics: image.statistics,
+        noise: image.noise,
         warnings: image.warnings,
       });
       await trx('image_blobs').insert({
         imageId: row.id,
-        original: Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength),
-        pixels: stored.pixels,
-        mask: stored.mask,
-        thumbnail: stored.thumbnail,
+        original: bufferOf(bytes),
+        pixels: bufferOf(image.pixels),
+        mask: bufferOf(image.mask),
+        thumbnail: bufferOf(image.thumbnail),
       });
       return row.id;
     });

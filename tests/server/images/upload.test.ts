@@ -8,6 +8,9 @@ import { readFileSync } from 'node:fs';
 import { Jimp } from 'jimp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
+import { readImageAsync } from '../../../server/engine/io/read-image';
+import { THREAD_MIN_BYTES } from '../../../server/images/analysis-thread';
+import { analyseImage } from '../../../server/images/image-analysis';
 import { decodePixelView, type ImageDetail, type ImageSummary } from '../../../shared/images';
 import { Membership } from '../../../server/models/membership';
 import { Project } from '../../../server/models/project';
@@ -210,6 +213,35 @@ describe('what is stored about an image', () => {
     expectClose('standard deviation', summary.statistics.standardDeviation, 2.5, 0.1);
     expect(summary.wcs).toBeNull();
     expect(summary.beam).toBeNull();
+  });
+
+  it('a large file is read in a worker thread with the same results as inline; its refusals keep their message', async () => {
+    const project = await newProject('Large');
+    const plane = noisePlane(1000, 800, 27, 0.5, 3);
+    const bytes = fitsFile(plane, skyCards());
+    expect(bytes.length).toBeGreaterThanOrEqual(THREAD_MIN_BYTES);
+    const summary = stored(await uploadAs(client, project.id, bytes, 'large.fits')).body as ImageSummary;
+    const inline = analyseImage(await readImageAsync(bytes));
+    expect(summary.statistics).toEqual(inline.statistics);
+    expect(summary.noise).toEqual(inline.noise);
+    expect(summary.wcs).toEqual(inline.wcs);
+    expectClose('σ', summary.noise!.sigma, 0.5, 0.01); // σ = 0.5 put in; ~800 000 samples
+    const view = decodePixelView(
+      new Uint8Array(
+        (await client.get(`/api/images/${summary.id}/pixels?maxSize=4096`).buffer(true).parse(binary))
+          .body as Buffer,
+      ),
+    );
+    expect(view.data).toEqual(plane.data);
+    const cut = await uploadAs(client, project.id, bytes.subarray(0, 2_500_000), 'large-cut.fits');
+    expect(cut.status).toBe(422);
+    expect(cut.body).toEqual({
+      error: {
+        code: 'unprocessable',
+        message: 'The FITS file is truncated: its data need 3200000 bytes after the header, got 2497120',
+        details: { reason: 'truncated' },
+      },
+    });
   });
 
   it('rename, download the original byte for byte, thumbnail PNG with north up', async () => {

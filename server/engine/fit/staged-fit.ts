@@ -169,7 +169,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
   const psfConvolver = createConvolver(pw, ph, kernel);
   const n = model.n;
   const k = modeWavenumbers(pw, ph);
-  const kc = 1 / (2 * fwhm.major);
+  const kc = 1 / (3 * fwhm.major);
   const turnover = 1 / Math.max(pw, ph);
   const power = new Float64Array(n);
 
@@ -398,10 +398,10 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     const early = Math.max(1, Math.round(maxIterations / 3));
     setSpectrum(kc);
     runStage('diffuse', { diffuse: true, compact: false }, 10 * absoluteDecrease, early);
-    updateSpectrum(kc, kc);
+    updateSpectrum(kc / 2, kc);
     runStage('diffuse', { diffuse: true, compact: false }, 10 * absoluteDecrease, early);
     // Stage 2: full spectrum.
-    updateSpectrum(kc, null);
+    updateSpectrum(kc / 2, null);
     const residual = new Float64Array(m);
     for (let round = 1; round <= seedRounds; round++) {
       model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
@@ -429,7 +429,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
         tau[seed.index] = model.clipTau(Math.log(u + seed.flux));
       }
       runStage(`joint-${round}`, { diffuse: true, compact: true }, 5 * absoluteDecrease, early);
-      updateSpectrum(0.5, null);
+      updateSpectrum(kc / 2, null);
     }
     runStage('final', { diffuse: true, compact: true }, absoluteDecrease, maxIterations);
 

@@ -16,7 +16,7 @@
  * one PSF-sized source per 1600 pixels, measured in the tests). So pixels within 2 pixels of any |L − median| above
  * 4 first-pass σ (in L units) are left out and the MAD is taken again. For pure noise this drops ~0.2% of the
  * pixels, in the far tails, and moves the estimate by far less than its scatter.
- * Invalid pixels: masked (mask ≠ 0) or non-finite values, at the centre or as a neighbour; border pixels have no
+ * Invalid pixels: masked (valid[i] = 0, the SkyImage mask convention) or non-finite values, at the centre or as a neighbour; border pixels have no
  * four neighbours and are skipped.
  */
 import { medianInPlace } from './median';
@@ -34,13 +34,13 @@ export interface NoiseEstimate {
 
 /**
  * @param data row-major width × height
- * @param mask optional, 1 = masked (left out)
+ * @param valid optional, 1 = valid pixel, 0 = masked (left out); the SkyImage convention
  */
 export function estimateNoiseSigma(
   data: ArrayLike<number>,
   width: number,
   height: number,
-  mask?: Uint8Array | null,
+  valid?: Uint8Array | null,
 ): NoiseEstimate {
   if (!Number.isInteger(width) || !Number.isInteger(height) || width < 3 || height < 3) {
     throw new Error(`noise estimate needs an image of at least 3×3 pixels (got ${width}×${height})`);
@@ -50,14 +50,15 @@ export function estimateNoiseSigma(
       `noise estimate: data has ${data.length} values, expected ${width}×${height} = ${width * height}`,
     );
   }
-  const valid = (i: number): boolean => (!mask || mask[i] === 0) && Number.isFinite(data[i]!);
+  const usable = (i: number): boolean => (!valid || valid[i] !== 0) && Number.isFinite(data[i]!);
   const laplacian = new Float64Array(width * height).fill(NaN);
   const values = new Float64Array((width - 2) * (height - 2));
   let n = 0;
   for (let y = 1; y < height - 1; y++) {
     for (let x = 1; x < width - 1; x++) {
       const i = y * width + x;
-      if (!valid(i) || !valid(i - 1) || !valid(i + 1) || !valid(i - width) || !valid(i + width)) continue;
+      if (!usable(i) || !usable(i - 1) || !usable(i + 1) || !usable(i - width) || !usable(i + width))
+        continue;
       const l = data[i]! - 0.25 * (data[i - 1]! + data[i + 1]! + data[i - width]! + data[i + width]!);
       laplacian[i] = l;
       values[n++] = l;

@@ -71,13 +71,13 @@ describe('estimateNoiseSigma', () => {
     const w = 128;
     const h = 128;
     const data = normalNoise(w * h, 2, 21);
-    const mask = new Uint8Array(w * h);
+    const valid = new Uint8Array(w * h).fill(1);
     for (let i = 0; i < w * 40; i++) {
       data[i] = 1e6 * (i % 7); // garbage under the mask
-      mask[i] = 1;
+      valid[i] = 0;
     }
     data[w * 100 + 50] = NaN;
-    const est = estimateNoiseSigma(data, w, h, mask);
+    const est = estimateNoiseSigma(data, w, h, valid);
     expect(Math.abs(est.sigma / 2 - 1), `σ 2, estimated ${est.sigma}`).toBeLessThan(0.03);
     expect(est.samples).toBeLessThan((w - 2) * (h - 41));
   });

@@ -1,0 +1,71 @@
+import { describe, expect, it } from 'vitest';
+
+import { formatPixelValue, formatReadout } from '@/viewer/wcs-readout';
+import { chooseScaleBar } from '@/viewer/scale-bar';
+import { paintPlane, BLANK_RGBA } from '@/viewer/render-plane';
+import { makeStretch } from '@/viewer/stretch';
+import { colourMapTable } from '@/viewer/colour-maps';
+
+describe('readout', () => {
+  it('formats pixel, value with unit, degrees and sexagesimal', () => {
+    // RA 150.11917° = 10.007944 h = 10 h 00 m 28.600 s; Dec 2.20583° = 2° 12′ 21.0″ (hand-computed).
+    const readout = formatReadout({ x: 12, y: 7 }, 0.003142, 'Jy/beam', () => ({
+      lon: 150.119166667,
+      lat: 2.205833333,
+    }));
+    expect(readout).toEqual({
+      pixel: 'x 12, y 7',
+      value: '0.003142 Jy/beam',
+      degrees: 'RA 150.11917°, Dec +2.20583°',
+      sexagesimal: '10:00:28.600 +02:12:21.00',
+    });
+  });
+  it('without a WCS or where it has no solution, shows no sky position; blank values say so', () => {
+    expect(formatReadout({ x: 1, y: 1 }, NaN, null).degrees).toBeNull();
+    expect(formatReadout({ x: 1, y: 1 }, 5, null, () => null).sexagesimal).toBeNull();
+    expect(formatPixelValue(NaN, 'K')).toBe('blank');
+    expect(formatPixelValue(12.5, null)).toBe('12.50');
+    expect(formatPixelValue(-0.00031416, 'Jy/beam')).toBe('-3.142e-4 Jy/beam');
+    // Negative longitudes wrap into [0°, 360°).
+    expect(formatReadout({ x: 1, y: 1 }, 1, 'K', () => ({ lon: -15, lat: -30 })).degrees).toBe(
+      'RA 345.00000°, Dec -30.00000°',
+    );
+  });
+});
+
+describe('scale bar', () => {
+  it('picks the longest nice angle that fits', () => {
+    // 1.5″ per screen pixel, 120 px: 180″ fits → nice values ≤ 180″: 120″ = 2′ (80 px).
+    expect(chooseScaleBar(1.5, 120)).toEqual({ arcsec: 120, screenPixels: 80, label: '2′' });
+    // 0.1″ per pixel: ≤ 12″ → 10″ (100 px).
+    expect(chooseScaleBar(0.1, 120)).toEqual({ arcsec: 10, screenPixels: 100, label: '10″' });
+    // 60″ per pixel: ≤ 7200″ → 2°.
+    expect(chooseScaleBar(60, 120)?.label).toBe('2°');
+    expect(chooseScaleBar(0, 120)).toBeNull();
+  });
+});
+
+describe('painting a plane', () => {
+  it('flips rows (row 0 of the plane is the bottom), maps through the table and paints blanks neutral', () => {
+    // 2 × 2 plane: bottom row [0, 1], top row [NaN, 0.5]; mask hides the bottom-right pixel.
+    const data = new Float32Array([0, 1, NaN, 0.5]);
+    const mask = new Uint8Array([0, 1, 0, 0]);
+    const out = new Uint8ClampedArray(16);
+    paintPlane({ width: 2, height: 2, data }, makeStretch({ lower: 0, upper: 1 }), 'grey', out, mask);
+    const grey = colourMapTable('grey');
+    // Top row in the output: NaN → blank, 0.5 → entry round(127.5) = 128.
+    expect(Array.from(out.subarray(0, 4))).toEqual([...BLANK_RGBA]);
+    expect(Array.from(out.subarray(4, 8))).toEqual([grey[3 * 128], grey[3 * 128], grey[3 * 128], 255]);
+    // Bottom row: 0 → black, masked → blank.
+    expect(Array.from(out.subarray(8, 12))).toEqual([0, 0, 0, 255]);
+    expect(Array.from(out.subarray(12, 16))).toEqual([...BLANK_RGBA]);
+    expect(() =>
+      paintPlane(
+        { width: 2, height: 2, data },
+        makeStretch({ lower: 0, upper: 1 }),
+        'grey',
+        new Uint8ClampedArray(4),
+      ),
+    ).toThrow('The output has 4 bytes, expected 16.');
+  });
+});

@@ -106,6 +106,10 @@ export class FftJsRealFft2d implements RealFft2d {
     }
   }
 
+  inverseInPlace(re: Float64Array, im: Float64Array, output: Float64Array): void {
+    this.inverse(re, im, output);
+  }
+
   whenReady(): Promise<boolean> {
     return Promise.resolve(true);
   }

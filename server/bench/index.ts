@@ -13,6 +13,7 @@
  */
 import { spawn } from 'node:child_process';
 import { existsSync } from 'node:fs';
+import { cpus, loadavg } from 'node:os';
 import { fileURLToPath } from 'node:url';
 import { benchFft, fftTable } from './fft';
 import type { SeparationBenchRow } from './separate-one';
@@ -95,7 +96,15 @@ function separationTable(rows: readonly SeparationBenchRow[]): string {
 async function main(): Promise<void> {
   const args = parseArgs(process.argv.slice(2));
   const separateExists = existsSync(fileURLToPath(new URL('../engine/separate.ts', import.meta.url)));
-  console.log(`# Skysieve bench (${new Date().toISOString()}, Node ${process.version})\n`);
+  const load = loadavg()
+    .map((v) => v.toFixed(1))
+    .join(', ');
+  console.log(
+    `# Skysieve bench (${new Date().toISOString()}, Node ${process.version}, ${cpus().length} cores)\n`,
+  );
+  console.log(
+    `Load average at start (1, 5, 15 min): ${load}. Other processes on the machine inflate every time below.\n`,
+  );
   if (args.only !== 'separate') {
     const repeat = Math.max(7, args.repeat ?? 7);
     const sizes = args.sizes ?? [256, 512, 1024, 1280, 1536, 2048, 2560];

@@ -6,9 +6,12 @@
  * Both by the convolution theorem: one forward and one inverse real FFT each, with the kernel's spectrum K
  * computed once; the adjoint multiplies by conj K. The kernel is given on the same grid with its centre at pixel
  * (0, 0) and wrap-around (see kernelFromCentredStamp); the convolver does not normalise it.
+ * A centro-symmetric kernel (k(−p) = k(p) exactly, e.g. a centred Gaussian PSF) has a real spectrum: only the real
+ * part is kept, and apply and adjoint are the same operation.
  */
 import { checkLength } from './check-size';
 import { transformFor } from './real-fft-2d';
+import { scratchSpectrum } from './shared-buffers';
 import type { RealFft2d, TransformOptions } from './types';
 
 export interface Convolver {
@@ -44,7 +47,8 @@ class FftConvolver implements Convolver {
   readonly height: number;
   readonly implementation: string;
   private readonly kernelRe: Float64Array;
-  private readonly kernelIm: Float64Array;
+  /** null for a centro-symmetric kernel (real spectrum). */
+  private readonly kernelIm: Float64Array | null;
   private readonly re: Float64Array;
   private readonly im: Float64Array;
 
@@ -56,12 +60,10 @@ class FftConvolver implements Convolver {
     this.width = fft.width;
     this.height = fft.height;
     this.implementation = fft.implementation;
-    const size = fft.spectrumWidth * fft.height;
-    this.kernelRe = new Float64Array(size);
-    this.kernelIm = new Float64Array(size);
-    this.re = new Float64Array(size);
-    this.im = new Float64Array(size);
-    fft.forward(kernel, this.kernelRe, this.kernelIm);
+    ({ re: this.re, im: this.im } = scratchSpectrum(fft));
+    this.kernelRe = new Float64Array(fft.spectrumWidth * fft.height);
+    fft.forward(kernel, this.kernelRe, this.im);
+    this.kernelIm = isCentroSymmetric(kernel, fft.width, fft.height) ? null : this.im.slice();
   }
 
   apply(x: Float64Array, out: Float64Array): void {
@@ -75,20 +77,38 @@ class FftConvolver implements Convolver {
   private run(x: Float64Array, out: Float64Array, conjugate: 1 | -1): void {
     const { re, im, kernelRe, kernelIm } = this;
     this.fft.forward(x, re, im);
-    for (let i = 0; i < re.length; i++) {
-      const xr = re[i]!,
-        xi = im[i]!,
-        kr = kernelRe[i]!,
-        ki = conjugate * kernelIm[i]!;
-      re[i] = xr * kr - xi * ki;
-      im[i] = xr * ki + xi * kr;
+    if (kernelIm === null) {
+      for (let i = 0; i < re.length; i++) {
+        re[i] = re[i]! * kernelRe[i]!;
+        im[i] = im[i]! * kernelRe[i]!;
+      }
+    } else {
+      for (let i = 0; i < re.length; i++) {
+        const xr = re[i]!;
+        const xi = im[i]!;
+        const kr = kernelRe[i]!;
+        const ki = conjugate * kernelIm[i]!;
+        re[i] = xr * kr - xi * ki;
+        im[i] = xr * ki + xi * kr;
+      }
     }
-    this.fft.inverse(re, im, out);
+    this.fft.inverseInPlace(re, im, out);
   }
 
   dispose(): void {
     if (this.ownsFft) this.fft.dispose();
   }
+}
+
+/** True when k(−x, −y) = k(x, y) exactly on the periodic grid. */
+function isCentroSymmetric(kernel: Float64Array, width: number, height: number): boolean {
+  for (let y = 0; y < height; y++) {
+    const my = (height - y) % height;
+    for (let x = 0; x < width; x++) {
+      if (kernel[y * width + x] !== kernel[my * width + ((width - x) % width)]) return false;
+    }
+  }
+  return true;
 }
 
 /**

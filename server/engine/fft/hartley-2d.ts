@@ -8,6 +8,7 @@
  */
 import { checkLength } from './check-size';
 import { transformFor } from './real-fft-2d';
+import { scratchSpectrum } from './shared-buffers';
 import type { RealFft2d, TransformOptions } from './types';
 
 export interface Hartley2d {
@@ -38,8 +39,7 @@ class Hartley2dFromFft implements Hartley2d {
     this.width = fft.width;
     this.height = fft.height;
     this.implementation = fft.implementation;
-    this.re = new Float64Array(fft.spectrumWidth * fft.height);
-    this.im = new Float64Array(fft.spectrumWidth * fft.height);
+    ({ re: this.re, im: this.im } = scratchSpectrum(fft));
   }
 
   transform(input: Float64Array, output: Float64Array): void {

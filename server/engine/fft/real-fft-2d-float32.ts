@@ -115,6 +115,10 @@ export class RealFft2dFloat32 implements RealFft2d {
     output.set(this.image.subarray(rowSplit * width), rowSplit * width);
   }
 
+  inverseInPlace(re: Float64Array, im: Float64Array, output: Float64Array): void {
+    this.inverse(re, im, output);
+  }
+
   whenReady(): Promise<boolean> {
     return this.thread === null ? Promise.resolve(true) : this.thread.whenReady();
   }

@@ -38,8 +38,9 @@ export class RealFft2dFloat64 implements RealFft2d {
   private readonly rowWorkIm: Float64Array;
   private readonly columnWorkRe: Float64Array;
   private readonly columnWorkIm: Float64Array;
-  private readonly spectrumRe: Float64Array;
-  private readonly spectrumIm: Float64Array;
+  /** Scratch spectrum for inverse() (allocated on first use) or the spectrum shared with the worker. */
+  private spectrumRe: Float64Array;
+  private spectrumIm: Float64Array;
   private readonly thread: FftThread | null = null;
   private readonly rowSplit: number;
   private readonly columnSplit: number;
@@ -81,8 +82,8 @@ export class RealFft2dFloat64 implements RealFft2d {
         buffers: { image: image!, re: re!, im: im! },
       });
     } else {
-      this.spectrumRe = new Float64Array(this.spectrumWidth * height);
-      this.spectrumIm = new Float64Array(this.spectrumWidth * height);
+      this.spectrumRe = new Float64Array(0);
+      this.spectrumIm = new Float64Array(0);
     }
   }
 
@@ -112,6 +113,10 @@ export class RealFft2dFloat64 implements RealFft2d {
     checkLength(inRe, spectrumWidth * height, 'inverse FFT input (real part)');
     checkLength(inIm, spectrumWidth * height, 'inverse FFT input (imaginary part)');
     checkLength(output, width * height, 'inverse FFT output');
+    if (this.thread === null && this.spectrumRe.length === 0) {
+      this.spectrumRe = new Float64Array(spectrumWidth * height);
+      this.spectrumIm = new Float64Array(spectrumWidth * height);
+    }
     const { thread, rowSplit, columnSplit, spectrumRe: re, spectrumIm: im } = this;
     if (thread === null || !thread.ready) {
       this.columns(inRe, inIm, re, im, 0, spectrumWidth, true);
@@ -126,6 +131,19 @@ export class RealFft2dFloat64 implements RealFft2d {
     this.inverseRows(re, im, output, 0, rowSplit);
     thread.finish();
     output.set(this.image.subarray(rowSplit * width), rowSplit * width);
+  }
+
+  inverseInPlace(re: Float64Array, im: Float64Array, output: Float64Array): void {
+    if (this.thread !== null) {
+      this.inverse(re, im, output);
+      return;
+    }
+    const { width, height, spectrumWidth } = this;
+    checkLength(re, spectrumWidth * height, 'inverse FFT input (real part)');
+    checkLength(im, spectrumWidth * height, 'inverse FFT input (imaginary part)');
+    checkLength(output, width * height, 'inverse FFT output');
+    this.columns(re, im, re, im, 0, spectrumWidth, true);
+    this.inverseRows(re, im, output, 0, height);
   }
 
   whenReady(): Promise<boolean> {

@@ -30,3 +30,22 @@ export function copyColumns(
     }
   }
 }
+
+const scratchByTransform = new WeakMap<object, { re: Float64Array; im: Float64Array }>();
+
+/**
+ * A scratch half spectrum tied to one transform object: the Hartley transforms and convolvers that share a
+ * RealFft2d also share this (they run one at a time, synchronously), so each extra user costs no scratch memory.
+ */
+export function scratchSpectrum(fft: { spectrumWidth: number; height: number }): {
+  re: Float64Array;
+  im: Float64Array;
+} {
+  let scratch = scratchByTransform.get(fft);
+  if (scratch === undefined) {
+    const size = fft.spectrumWidth * fft.height;
+    scratch = { re: new Float64Array(size), im: new Float64Array(size) };
+    scratchByTransform.set(fft, scratch);
+  }
+  return scratch;
+}

@@ -23,6 +23,11 @@ export interface RealFft2d {
    */
   inverse(inRe: Float64Array, inIm: Float64Array, output: Float64Array): void;
   /**
+   * The same as inverse, but free to overwrite `re` and `im` (their contents are undefined afterwards). Saves the
+   * transform a scratch spectrum (2 · spectrumWidth · height float64) where it can work in place.
+   */
+  inverseInPlace(re: Float64Array, im: Float64Array, output: Float64Array): void;
+  /**
    * Resolves true once every thread asked for is running (at once for one thread), false if the worker could not
    * start (the transform then runs on the calling thread alone). Transforms called before that are still correct:
    * they simply run on the calling thread.

@@ -123,6 +123,33 @@ describe('createConvolver (float64)', () => {
     }
   });
 
+  it.each([
+    [9, 7],
+    [10, 8],
+    [16, 5],
+  ])('%i×%i centro-symmetric kernel (real spectrum path) matches the direct sum', (width, height) => {
+    const n = width * height;
+    const raw = randomArray(n, 90 + n);
+    const kernel = new Float64Array(n);
+    for (let y = 0; y < height; y++) {
+      for (let x = 0; x < width; x++) {
+        const mirror = ((height - y) % height) * width + ((width - x) % width);
+        kernel[y * width + x] = raw[y * width + x]! + raw[mirror]!;
+      }
+    }
+    const x = randomArray(n, 91 + n);
+    const out = new Float64Array(n);
+    const back = new Float64Array(n);
+    const conv = createConvolver(width, height, kernel);
+    conv.apply(x, out);
+    conv.adjoint(x, back);
+    const want = naiveConvolve(kernel, x, width, height, false);
+    const { value, index } = maxAbsDifference(out, want);
+    expect(value, `at ${index}: expected ${want[index]}, got ${out[index]}`).toBeLessThan(1e-13 * n);
+    // For a symmetric kernel the adjoint is the same operator.
+    expect(maxAbsDifference(back, out).value).toBeLessThan(1e-13 * n);
+  });
+
   it('⟨Ax, y⟩ = ⟨x, Aᵀy⟩ for an asymmetric kernel (definition of the adjoint)', () => {
     const width = 48,
       height = 30,

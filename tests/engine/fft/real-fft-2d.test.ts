@@ -83,6 +83,20 @@ describe('createRealFft2d (float64) against a naive DFT', () => {
     expect(re).toEqual(reCopy);
   });
 
+  it.each([
+    [16, 12],
+    [15, 9],
+    [64, 40],
+  ])('%i×%i inverseInPlace gives the same image as inverse', (width, height) => {
+    const input = randomArray(width * height, 5 * width + height);
+    const { fft, re, im } = spectrumOf(width, height, input, 'float64');
+    const viaCopy = new Float64Array(width * height);
+    const inPlace = new Float64Array(width * height);
+    fft.inverse(re, im, viaCopy);
+    fft.inverseInPlace(re, im, inPlace);
+    expect(maxAbsDifference(inPlace, viaCopy).value).toBe(0);
+  });
+
   it('FFT of a delta at (x0, y0) is the pure phase exp(−2πi(kx x0/W + ky y0/H)) (definition of the DFT)', () => {
     const width = 24,
       height = 20,

@@ -61,6 +61,8 @@ function runOneSize(size: number, repeat: number): Promise<SeparationBenchRow> {
   return new Promise((resolve, reject) => {
     const child = spawn(process.execPath, ['--import', 'tsx', script, String(size), String(repeat)], {
       stdio: ['ignore', 'pipe', 'inherit'],
+      // `--import tsx` resolves from the working directory: run in the project root.
+      cwd: fileURLToPath(new URL('../..', import.meta.url)),
     });
     let out = '';
     child.stdout.on('data', (chunk: Buffer) => (out += chunk.toString()));

@@ -114,7 +114,7 @@ const write = (ok: number) => ({
 
 interface Action {
   name: string;
-  call(caller: Caller): Promise<{ status: number; body: any }>;
+  call(caller: Caller): Promise<{ status: number; body: { error?: { message: string } } }>;
   expected: Record<Actor, number>;
   /** Runs once before each actor's call (e.g. a fresh queued run to cancel). */
   prepare?(): Promise<void>;
@@ -184,10 +184,10 @@ describe.each(actions)('$name', (action) => {
     const response = await action.call(callers.get(actor)!);
     const expected = action.expected[actor];
     expect(response.status, `${action.name} as ${actor}: ${JSON.stringify(response.body)}`).toBe(expected);
-    if (expected === 404) expect(response.body.error.message).toMatch(/^(Image|Run) not found\.$/);
-    if (expected === 401) expect(response.body.error.message).toBe('Sign in to continue.');
+    if (expected === 404) expect(response.body.error?.message).toMatch(/^(Image|Run) not found\.$/);
+    if (expected === 401) expect(response.body.error?.message).toBe('Sign in to continue.');
     if (expected === 403)
-      expect(response.body.error.message).toBe('Only project owners and editors can start or cancel runs.');
+      expect(response.body.error?.message).toBe('Only project owners and editors can start or cancel runs.');
     if (action.name === 'start a run') expect(await runCount()).toBe(before + (expected === 202 ? 1 : 0));
     if (action.name === 'cancel a queued run') {
       const run = await Run.query().findById(queuedRunId);

@@ -10,14 +10,19 @@ import { createHash } from 'node:crypto';
 
 import { parse as parseCsv } from 'csv-parse/sync';
 import { XMLParser } from 'fast-xml-parser';
+import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
+import type { CatalogueSource } from '../../../shared/catalogue';
+import type { RunDetail, RunEvent, SourcePage } from '../../../shared/runs';
 import { sourceColumns } from '../../../server/catalogue/catalogue-table';
 import { parseHeader } from '../../../server/engine/io/header-card';
 import { readImage } from '../../../server/engine/io/read-image';
+import { writeFits } from '../../../server/engine/io/write-fits';
 import { User } from '../../../server/models/user';
 import { configureRunQueue, stopRunQueue } from '../../../server/queue/run-queue';
 import { type RunWorker, startRunWorker } from '../../../server/queue/run-worker';
+import { createToken } from '../../../server/tokens/tokens.service';
 import {
   apiError,
   type BrowserClient,
@@ -26,7 +31,7 @@ import {
   startTestApp,
   type TestApp,
 } from '../../support/test-app';
-import { fastSettings, type RunFixture, runFixture, waitForRun } from './run-support';
+import { fastSettings, type RunFixture, runFixture, smallSky, waitForRun } from './run-support';
 
 let t: TestApp;
 let worker: RunWorker;
@@ -58,7 +63,7 @@ const get = (path: string) => owner.get(path);
 
 describe('a run that succeeds', () => {
   let runId = 0;
-  let detail: Record<string, any>;
+  let detail: RunDetail;
 
   beforeAll(async () => {
     const bytesBefore = (await User.query().findById(f.owner.id))!.bytesUsed;
@@ -67,22 +72,24 @@ describe('a run that succeeds', () => {
     expect(response.body).toEqual({ id: expect.any(Number), status: 'queued' });
     runId = response.body.id;
     const seen = new Set<string>();
-    detail = await waitForRun(get, runId, (body) => {
+    detail = (await waitForRun(get, runId, (body) => {
       seen.add(body.status);
       return ['succeeded', 'failed', 'cancelled'].includes(body.status);
-    });
+    })) as unknown as RunDetail;
     expect(detail.status, JSON.stringify(detail.errorMessage)).toBe('succeeded');
     const bytesAfter = (await User.query().findById(f.owner.id))!.bytesUsed;
     // Result bytes: seven float32 planes of 64 × 64 plus 128 bytes per source row (server/runs/run-results.ts).
-    expect(detail.resultBytes).toBe(7 * 64 * 64 * 4 + 128 * (detail.sourceCount as number));
+    expect(detail.resultBytes).toBe(7 * 64 * 64 * 4 + 128 * detail.sourceCount!);
     expect(bytesAfter - bytesBefore).toBe(detail.resultBytes);
   }, 90_000);
 
   it('records status, timings, settings after defaults and provenance', async () => {
     expect(detail.attempts).toBe(1);
     expect(detail.errorMessage).toBeNull();
-    expect(detail.progress.fraction).toBe(1);
+    expect(detail.progress!.fraction).toBe(1);
     const { queuedAt, startedAt, finishedAt, phasesMs } = detail.timings;
+    if (!startedAt || !finishedAt || !phasesMs)
+      throw new Error(`timings missing: ${JSON.stringify(detail.timings)}`);
     expect(Date.parse(queuedAt)).toBeLessThanOrEqual(Date.parse(startedAt));
     expect(Date.parse(startedAt)).toBeLessThanOrEqual(Date.parse(finishedAt));
     expect(phasesMs.total).toBeGreaterThan(0);
@@ -106,37 +113,38 @@ describe('a run that succeeds', () => {
       width: 64,
       height: 64,
     });
-    expect(detail.components.map((c: { name: string }) => c.name).sort()).toEqual(
+    expect(detail.components.map((c) => c.name).sort()).toEqual(
       ['compact', 'compactSky', 'diffuse', 'diffuseSky', 'model', 'residual', 'residualNorm'].sort(),
     );
   });
 
   it('stores diagnostics: the residual histogram covers every pixel, the spectrum carries the fitted law', () => {
-    const { residualHistogram, spectrum, convergence } = detail.diagnostics;
-    const total = (residualHistogram.counts as number[]).reduce((a, b) => a + b, 0);
+    const { residualHistogram, spectrum, convergence } = detail.diagnostics!;
+    const total = residualHistogram.counts.reduce((a, b) => a + b, 0);
     expect(total).toBe(64 * 64);
     expect(residualHistogram.count).toBe(64 * 64);
     // A fit that explains the image leaves residuals of about unit spread (common practice: within 0.7–1.3).
     expect(residualHistogram.std).toBeGreaterThan(0.7);
     expect(residualHistogram.std).toBeLessThan(1.3);
-    const k0 = spectrum.k[0] as number;
+    const k0 = spectrum.k[0]!;
     const expected = spectrum.amplitude * Math.pow(k0 * k0 + spectrum.turnover ** 2, -spectrum.slope / 2);
-    expect(Math.abs(spectrum.fitted[0] - expected)).toBeLessThanOrEqual(1e-12 * Math.abs(expected));
+    expect(Math.abs(spectrum.fitted[0]! - expected)).toBeLessThanOrEqual(1e-12 * Math.abs(expected));
     expect(convergence.length).toBeGreaterThan(0);
-    expect(new Set(convergence.map((c: { stage: string }) => c.stage))).toContain('final');
+    expect(new Set(convergence.map((c) => c.stage))).toContain('final');
   });
 
   it('recovers the simulated sources within their errors (known truth)', async () => {
     const response = await get(`/api/runs/${runId}/sources?pageSize=1000`);
     expect(response.status).toBe(200);
-    const { sources, total } = response.body;
+    const { sources, total } = response.body as SourcePage;
     expect(total).toBe(detail.sourceCount);
     expect(f.sky.truth.sources).toHaveLength(5);
     for (const truth of f.sky.truth.sources) {
       // Truth positions are 0-based; the catalogue is FITS 1-based.
-      const match = sources.find((s: any) => Math.hypot(s.x - (truth.x + 1), s.y - (truth.y + 1)) < 1.5);
+      const match = sources.find((s) => Math.hypot(s.x - (truth.x + 1), s.y - (truth.y + 1)) < 1.5);
       expect(match, `no source near (${truth.x + 1}, ${truth.y + 1})`).toBeDefined();
       // 5σ tolerance on the flux: the stated error has to cover the truth (catalogue standard).
+      if (!match) continue;
       const tolerance = 5 * match.fluxErr;
       expect(
         Math.abs(match.flux - truth.flux),
@@ -146,11 +154,12 @@ describe('a run that succeeds', () => {
   });
 
   it('pages, sorts and filters the catalogue', async () => {
-    const all = (await get(`/api/runs/${runId}/sources?pageSize=1000&sort=snr`)).body.sources as any[];
+    const all = (await get(`/api/runs/${runId}/sources?pageSize=1000&sort=snr`)).body
+      .sources as CatalogueSource[];
     const snrs = all.map((s) => s.snr);
     expect(snrs).toEqual([...snrs].sort((a, b) => a - b));
     const page2 = await get(`/api/runs/${runId}/sources?page=2&pageSize=2&sort=-snr`);
-    expect(page2.body.sources.map((s: any) => s.id)).toEqual(
+    expect((page2.body as SourcePage).sources.map((s) => s.id)).toEqual(
       [...all]
         .reverse()
         .slice(2, 4)
@@ -174,7 +183,8 @@ describe('a run that succeeds', () => {
   });
 
   it('downloads the catalogue as CSV (RFC 4180, read back by csv-parse), VOTable and FITS', async () => {
-    const json = (await get(`/api/runs/${runId}/sources?pageSize=1000&sort=id`)).body.sources as any[];
+    const json = (await get(`/api/runs/${runId}/sources?pageSize=1000&sort=id`)).body
+      .sources as CatalogueSource[];
     const csv = await get(`/api/runs/${runId}/sources?format=csv&sort=id`);
     expect(csv.status).toBe(200);
     expect(csv.headers['content-type']).toMatch(/^text\/csv/);
@@ -185,7 +195,7 @@ describe('a run that succeeds', () => {
     expect(Object.keys(records[0]!)).toEqual(sourceColumns('Jy/beam').map((c) => c.name));
     expect(records).toHaveLength(json.length);
     for (const [i, record] of records.entries()) {
-      const source = json[i];
+      const source = json[i]!;
       expect(Number(record.id)).toBe(source.id);
       // Shortest round-trip number text: the CSV value parses back to exactly the stored double.
       expect(Number(record.x)).toBe(source.x);
@@ -361,10 +371,10 @@ describe('cancel, events and failure', () => {
       (e) => e.event === 'run' && e.data.status === 'running' && e.data.progress,
     );
     expect(progress.length, JSON.stringify(events)).toBeGreaterThanOrEqual(1);
-    for (const e of progress) {
-      expect(e.data.progress.fraction).toBeGreaterThanOrEqual(0);
-      expect(e.data.progress.fraction).toBeLessThanOrEqual(1);
-      expect(typeof e.data.progress.stage).toBe('string');
+    for (const { data } of progress) {
+      expect(data.progress!.fraction).toBeGreaterThanOrEqual(0);
+      expect(data.progress!.fraction).toBeLessThanOrEqual(1);
+      expect(typeof data.progress!.stage).toBe('string');
     }
   }, 90_000);
 
@@ -397,6 +407,52 @@ describe('cancel, events and failure', () => {
   });
 });
 
+describe('the scripted journey (issue 5, "done when")', () => {
+  it('signs in with a token, creates a project, uploads, runs, follows and downloads through the API alone', async () => {
+    const token = (await createToken(f.editor, 'journey script', null)).token;
+    const auth = { authorization: `Bearer ${token}` };
+    const project = await request(t.app)
+      .post('/api/projects')
+      .set(auth)
+      .send({ name: 'AWS scripted journey' });
+    expect(project.status, JSON.stringify(project.body)).toBe(201);
+    const sky = smallSky(23);
+    const fits = Buffer.from(
+      writeFits({ width: sky.width, height: sky.height, data: sky.image }, { header: sky.header }),
+    );
+    const upload = await request(t.app)
+      .post(`/api/projects/${project.body.id}/images`)
+      .set(auth)
+      .attach('file', fits, 'lyra-journey.fits');
+    expect(upload.status, JSON.stringify(upload.body)).toBe(201);
+    const started = await request(t.app)
+      .post(`/api/images/${upload.body.id}/runs`)
+      .set(auth)
+      .send({ settings: fastSettings });
+    expect(started.status).toBe(202);
+    const events = await request(t.app)
+      .get(`/api/runs/${started.body.id}/events`)
+      .set(auth)
+      .buffer(true)
+      .parse(textParser);
+    const last = parseSse(events.body as string).at(-1);
+    expect(last?.data.status).toBe('succeeded');
+    const csv = await request(t.app).get(`/api/runs/${started.body.id}/sources?format=csv`).set(auth);
+    expect(csv.status).toBe(200);
+    const records = parseCsv(csv.text, { columns: true }) as Record<string, string>[];
+    expect(records.length).toBe(
+      (await request(t.app).get(`/api/runs/${started.body.id}`).set(auth)).body.sourceCount,
+    );
+    const component = await request(t.app)
+      .get(`/api/runs/${started.body.id}/components/diffuse?format=fits`)
+      .set(auth)
+      .buffer(true)
+      .parse(binaryParser);
+    expect(component.status).toBe(200);
+    expect(readImage(new Uint8Array(component.body as Buffer), { fileName: 'diffuse.fits' }).width).toBe(64);
+  }, 90_000);
+});
+
 // ---- helpers ----
 
 // eslint-disable-next-line @typescript-eslint/no-explicit-any
@@ -420,7 +476,7 @@ function float32(bytes: Buffer): Float32Array {
 }
 
 /** Splits an event stream into its events (HTML Living Standard §9.2.6, the parts these tests use). */
-function parseSse(text: string): { event: string; data: any }[] {
+function parseSse(text: string): { event: string; data: RunEvent }[] {
   return text
     .split('\n\n')
     .map((block) => block.split('\n').filter((line) => line !== '' && !line.startsWith(':')))

@@ -98,3 +98,14 @@ export function rasterRectangle(
     height: raster.height * factor * view.zoom,
   };
 }
+
+/**
+ * Index into a block-averaged raster (factor f, row 0 at the bottom) of the view pixel holding FITS image point
+ * `point`, or −1 outside the raster.
+ */
+export function rasterIndex(raster: Size, factor: number, point: Point): number {
+  const i = Math.floor((point.x - 0.5) / factor);
+  const j = Math.floor((point.y - 0.5) / factor);
+  if (i < 0 || j < 0 || i >= raster.width || j >= raster.height) return -1;
+  return j * raster.width + i;
+}

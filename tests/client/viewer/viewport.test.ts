@@ -59,3 +59,25 @@ describe('viewport', () => {
     expect(rect).toEqual({ x: 400 - 256, y: 300 - 256, width: 512, height: 512 });
   });
 });
+
+describe('raster lookup and markers', () => {
+  it('finds the view pixel of a block-averaged raster holding an image point', async () => {
+    const { rasterIndex } = await import('@/viewer/viewport');
+    // f = 4: FITS pixels 1..4 are view column 0, 5..8 column 1; row likewise.
+    expect(rasterIndex({ width: 3, height: 2 }, 4, { x: 4, y: 1 })).toBe(0);
+    expect(rasterIndex({ width: 3, height: 2 }, 4, { x: 5, y: 5 })).toBe(3 + 1);
+    expect(rasterIndex({ width: 3, height: 2 }, 4, { x: 13, y: 1 })).toBe(-1);
+  });
+  it('hit-tests beam ellipses with the position angle from +y towards −x', async () => {
+    const { sourceAt, screenRotation } = await import('@/viewer/markers');
+    // Major axis 10 px (semi-axis 5), minor 2 px (semi-axis 1), PA 90°: the major axis lies along −x/+x.
+    const source = { id: 1, x: 50, y: 50, majorPixels: 10, minorPixels: 2, paDeg: 90 };
+    expect(sourceAt([source], { x: 54.5, y: 50 })?.id).toBe(1);
+    expect(sourceAt([source], { x: 50, y: 54.5 })).toBeNull();
+    // PA 0: major axis along +y, which is straight up on screen (rotation −90° in canvas angles).
+    expect(Math.abs(screenRotation(0) + Math.PI / 2)).toBeLessThan(1e-12);
+    // The nearer of two overlapping markers wins.
+    const other = { ...source, id: 2, x: 53 };
+    expect(sourceAt([source, other], { x: 52.8, y: 50 })?.id).toBe(2);
+  });
+});

@@ -19,6 +19,7 @@ import { chargeQuota, precheckQuota } from '../storage/quota';
 import { analyseUpload } from './analysis-thread';
 import { downsampleMean } from './downsample';
 import { imageNotFoundMessage } from './image-access';
+import { ViewCache } from './view-cache';
 
 // Float32Array bytes are written as they lie in memory; the stored plane is documented as little-endian.
 if (endianness() !== 'LE')
@@ -216,8 +217,16 @@ export async function pixelPlane(image: Image): Promise<{ data: Float32Array; ma
   return { data, mask: new Uint8Array(row.mask) };
 }
 
+/** Encoded views kept in memory (64 MiB): the first view of a large image reads its whole plane. */
+const viewCache = new ViewCache(64 * 1024 ** 2);
+
 /** The binary pixel view (shared/images.ts format) at most maxSize on the longer side. */
 export async function pixelView(image: Image, maxSize: number): Promise<Uint8Array> {
+  const key = `${image.id}:${image.contentSha256}:${maxSize}`;
+  const cached = viewCache.get(key);
+  if (cached) return cached;
   const { data, mask } = await pixelPlane(image);
-  return encodePixelView(downsampleMean(data, mask, image.width, image.height, maxSize));
+  const view = encodePixelView(downsampleMean(data, mask, image.width, image.height, maxSize));
+  viewCache.set(key, view);
+  return view;
 }

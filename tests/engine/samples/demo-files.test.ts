@@ -133,4 +133,46 @@ describe('demo files', () => {
       expect(pulls.filter((p) => Math.abs(p) > 4).length).toBeLessThanOrEqual(1);
     }
   });
+
+  it('X-ray demo: counts sources come back with significances and honest flux errors (true background)', () => {
+    const demo = DEMO_FIELDS[1]!;
+    const image = readImage(readFileSync(join(samplesDir, `${demo.name}.fits`)));
+    const sky = simulateSky(demo.options);
+    const catalogue = extractSources({
+      width: image.width,
+      height: image.height,
+      data: image.data,
+      mask: image.mask,
+      noise: { kind: 'poisson' },
+      background: sky.truth.diffuseConvolved,
+      compactSky: truthCompactField(sky),
+      psf: sky.psf,
+      wcs: image.wcs,
+    });
+    const pulls: number[] = [];
+    let expected = 0;
+    for (const t of sky.truth.sources) {
+      const crowded = sky.truth.sources.some(
+        (o) =>
+          o !== t &&
+          o.flux >= 0.1 * t.flux &&
+          Math.hypot(o.x - t.x, o.y - t.y) < 2 * demo.options.psf.fwhmMajorPx,
+      );
+      // ≥ 15 counts: on 0.02–0.1 counts/pixel of background the likelihood-ratio significance of such a source is
+      // far above 5 (its SNR, which includes its own shot noise, is only ≈ √15 ≈ 4).
+      if (t.flux < 15 || crowded) continue;
+      expected++;
+      const c = catalogue.find((c) => Math.hypot(c.x - 1 - t.x, c.y - 1 - t.y) < 1.5);
+      expect(
+        c,
+        `source of ${t.flux.toFixed(0)} counts at ${t.x.toFixed(1)}, ${t.y.toFixed(1)}`,
+      ).toBeDefined();
+      expect(c!.significance!).toBeGreaterThanOrEqual(5);
+      pulls.push((c!.flux - t.flux) / c!.fluxErr);
+    }
+    expect(expected).toBeGreaterThan(12);
+    // n ≈ 15–30: the RMS of unit-normal pulls scatters by ≈ 0.13, bounds 0.7–1.5 as above.
+    const rms = Math.sqrt(pulls.reduce((a, v) => a + v * v, 0) / pulls.length);
+    check(rms, 0.7, 1.5, 'Poisson flux pull RMS');
+  });
 });

@@ -33,6 +33,9 @@ export interface StretchOptions {
 
 export interface Stretch {
   (value: number): number;
+  /** The limits and curve it was built from (lets painters tabulate the curve once). */
+  readonly limits: DisplayLimits;
+  readonly curve: (t: number) => number;
 }
 
 export interface DisplayLimits {
@@ -82,9 +85,10 @@ export function makeStretch(limits: DisplayLimits, options: StretchOptions = {})
   }
   const curve = stretchCurve(options);
   const range = upper - lower;
-  return (value) => {
+  const stretch = (value: number) => {
     if (!Number.isFinite(value)) return NaN;
     const t = (value - lower) / range;
     return curve(t <= 0 ? 0 : t >= 1 ? 1 : t);
   };
+  return Object.assign(stretch, { limits: { lower, upper }, curve });
 }

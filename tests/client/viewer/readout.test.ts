@@ -68,4 +68,21 @@ describe('painting a plane', () => {
       ),
     ).toThrow('The output has 4 bytes, expected 16.');
   });
+  it('the tabulated curve gives the colour of the exact stretch within one table step', () => {
+    // Steepest defaults: log (a = 1000) and asinh (β = 0.1), values spread over and beyond the limits.
+    const n = 4000;
+    const data = Float32Array.from({ length: n }, (_, k) => -0.2 + (1.4 * k) / (n - 1));
+    const table = colourMapTable('grey');
+    for (const stretchName of ['log', 'asinh', 'sqrt'] as const) {
+      const stretch = makeStretch({ lower: 0, upper: 1 }, { stretch: stretchName });
+      const out = paintPlane({ width: n, height: 1, data }, stretch, 'grey', new Uint8ClampedArray(4 * n));
+      for (let k = 0; k < n; k++) {
+        const exact = table[3 * Math.round(stretch(data[k]!) * 255)]!;
+        expect(
+          Math.abs(out[4 * k]! - exact),
+          `${stretchName} at ${data[k]}: painted ${out[4 * k]}, exact ${exact}, tolerance 1`,
+        ).toBeLessThanOrEqual(1);
+      }
+    }
+  });
 });

@@ -120,6 +120,7 @@ export async function uploadImage(
     maxPixels: options.maxPixels,
   }).catch(readError);
   const name = (options.name ?? file.originalName).trim().slice(0, 200) || 'image';
+  const { pixels, mask, thumbnail, ...metadata } = image;
 
   try {
     const id = await Image.transaction(async (trx) => {
@@ -129,28 +130,17 @@ export async function uploadImage(
         uploadedById: user.id,
         name,
         originalFileName: file.originalName.slice(0, 1000),
-        format: image.format,
         gzipped: bytes[0] === 0x1f && bytes[1] === 0x8b,
         contentSha256: sha256,
         fileBytes: bytes.length,
-        width: image.width,
-        height: image.height,
-        plane: image.plane,
-        originalAxes: image.originalAxes,
-        unit: image.unit,
-        header: image.header,
-        wcs: image.wcs,
-        beam: image.beam,
-        statistics: image.statistics,
-        noise: image.noise,
-        warnings: image.warnings,
+        ...metadata,
       });
       await trx('image_blobs').insert({
         imageId: row.id,
         original: bufferOf(bytes),
-        pixels: bufferOf(image.pixels),
-        mask: bufferOf(image.mask),
-        thumbnail: bufferOf(image.thumbnail),
+        pixels: bufferOf(pixels),
+        mask: bufferOf(mask),
+        thumbnail: bufferOf(thumbnail),
       });
       return row.id;
     });

@@ -1,4 +1,4 @@
-import type { RelationMappings } from 'objection';
+import type { Modifiers, RelationMappings } from 'objection';
 
 import type { RunDiagnostics, RunProgress, RunProvenance, RunStatus } from '../../shared/runs';
 import { BaseModel } from './base-model';
@@ -37,6 +37,38 @@ export class Run extends BaseModel {
     'provenance',
     'diagnostics',
   ];
+
+  static override modifiers: Modifiers = {
+    /** Every column but `diagnostics` (residual histogram, spectrum, convergence trace: the largest one). */
+    withoutDiagnostics(query) {
+      query.select(
+        ...[
+          'id',
+          'imageId',
+          'projectId',
+          'createdBy',
+          'status',
+          'requestedSettings',
+          'settings',
+          'settingsDigest',
+          'progress',
+          'errorMessage',
+          'attempts',
+          'cancelRequested',
+          'jobId',
+          'sourceCount',
+          'phasesMs',
+          'provenance',
+          'resultBytes',
+          'chargedUserId',
+          'startedAt',
+          'finishedAt',
+          'createdAt',
+          'updatedAt',
+        ].map((column) => `runs.${column}`),
+      );
+    },
+  };
 
   static override relationMappings = (): RelationMappings => ({
     sources: {

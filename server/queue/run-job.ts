@@ -19,6 +19,7 @@ import { FitCancelledError, runFitInThread } from '../runs/fit-thread';
 import { notifyRunFinished } from '../runs/run-mail';
 import { storeRunResults } from '../runs/run-results';
 import { AppError } from '../http/app-error';
+import { bytesToFloat32 } from '../models/run-component';
 
 export type WorkerContext = Pick<AppContext, 'config' | 'knex' | 'mailer' | 'logger' | 'version'>;
 
@@ -68,14 +69,12 @@ async function loadImage(knex: Knex, imageId: number): Promise<ImageInput | unde
     )) as ImageInput | undefined;
 }
 
-/** Copies little-endian float32 bytes into an aligned Float32Array of its own (transferable). */
+/** The stored little-endian float32 plane as an aligned Float32Array of its own (transferable). */
 function pixelPlane(bytes: Buffer, count: number): Float32Array {
-  if (bytes.byteLength !== count * 4)
+  if (bytes.byteLength !== count * 4) {
     throw new Error(`The stored pixel plane has ${bytes.byteLength} bytes, expected ${count * 4}.`);
-  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
-  const out = new Float32Array(count);
-  for (let i = 0; i < count; i++) out[i] = view.getFloat32(i * 4, true);
-  return out;
+  }
+  return bytesToFloat32(bytes);
 }
 
 async function finish(

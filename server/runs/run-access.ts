@@ -46,7 +46,8 @@ export function loadRun(minimum: ProjectRole): RequestHandler {
     const user = req.user;
     if (!user) return next(unauthenticated());
     (async () => {
-      const run = await Run.query().findById(Number(req.params.id));
+      // Everything but the diagnostics (the largest column), which only GET /api/runs/:id reads.
+      const run = await Run.query().modify('withoutDiagnostics').findById(Number(req.params.id));
       if (!run) throw notFound(runNotFoundMessage);
       await checkProject(user, run.projectId, minimum, runNotFoundMessage);
       res.locals.run = run;

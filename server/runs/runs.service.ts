@@ -29,7 +29,7 @@ import { downsampleMean } from '../images/downsample';
 import { isoDate, isoDateOrNull } from '../models/base-model';
 import type { Image } from '../models/image';
 import { Run } from '../models/run';
-import { bytesToFloat32 } from '../models/run-component';
+import { bytesToFloat32, float32ToBytes } from '../models/run-component';
 import { RunSource } from '../models/run-source';
 import { runQueueOf } from '../queue/run-queue';
 import { quotaExceededMessage } from '../storage/quota';
@@ -131,17 +131,21 @@ export async function listRuns(imageId: number): Promise<RunSummary[]> {
 }
 
 export async function runDetail(knex: Knex, run: Run): Promise<RunDetail> {
-  const components = (await knex('run_components')
-    .where('runId', run.id)
-    .orderBy('id')
-    .select('name', 'width', 'height')) as RunDetail['components'];
+  const [components, diagnostics] = await Promise.all([
+    knex('run_components').where('runId', run.id).orderBy('id').select('name', 'width', 'height') as Promise<
+      RunDetail['components']
+    >,
+    knex('runs').where('id', run.id).first('diagnostics') as Promise<
+      { diagnostics: RunDetail['diagnostics'] } | undefined
+    >,
+  ]);
   return {
     ...toRunSummary(run),
     requestedSettings: run.requestedSettings,
     settings: run.settings,
     settingsDigest: run.settingsDigest,
     provenance: run.provenance,
-    diagnostics: run.diagnostics,
+    diagnostics: diagnostics?.diagnostics ?? null,
     components,
     resultBytes: run.resultBytes,
   };
@@ -351,8 +355,7 @@ export async function componentView(
     plane.height,
     maxSize ?? Math.max(plane.width, plane.height),
   );
-  const body = Buffer.from(view.data.buffer, view.data.byteOffset, view.data.byteLength);
-  if (new Uint8Array(new Uint16Array([1]).buffer)[0] !== 1) body.swap32();
+  const body = float32ToBytes(view.data);
   return {
     width: view.width,
     height: view.height,

@@ -50,6 +50,12 @@ const routes: RouteRecordRaw[] = [
         meta: { title: 'Project' },
       },
       {
+        path: 'projects/:id(\\d+)/images',
+        name: 'project-images',
+        component: () => import('@/pages/ImageLibraryPage.vue'),
+        meta: { title: 'Images' },
+      },
+      {
         path: 'account',
         name: 'account',
         component: () => import('@/pages/AccountPage.vue'),

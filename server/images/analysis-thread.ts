@@ -16,6 +16,29 @@ import { type AnalysedImage, analyseImage } from './image-analysis';
 
 /** Files from this size on are read in a worker thread. */
 export const THREAD_MIN_BYTES = 2 * 1024 ** 2;
+/**
+ * Large analyses run one at a time per process: each holds the file, its float32 plane and scratch arrays
+ * (several hundred MiB at the pixel limit), and the machine has few cores; later uploads wait their turn.
+ */
+export const MAX_ANALYSIS_THREADS = 1;
+
+let running = 0;
+const waiting: (() => void)[] = [];
+
+async function acquireSlot(): Promise<void> {
+  if (running < MAX_ANALYSIS_THREADS) {
+    running++;
+    return;
+  }
+  // The releasing analysis hands its slot over directly, so `running` stays counted.
+  await new Promise<void>((resolve) => waiting.push(resolve));
+}
+
+function releaseSlot(): void {
+  const next = waiting.shift();
+  if (next) next();
+  else running--;
+}
 
 export interface AnalysisThreadData {
   path: string;
@@ -34,7 +57,12 @@ export async function analyseUpload(
   options: ReadImageOptions,
 ): Promise<AnalysedImage> {
   if (bytes.length < THREAD_MIN_BYTES) return analyseImage(await readImageAsync(bytes, options));
-  return analyseInThread({ path, options });
+  await acquireSlot();
+  try {
+    return await analyseInThread({ path, options });
+  } finally {
+    releaseSlot();
+  }
 }
 
 export function analyseInThread(data: AnalysisThreadData): Promise<AnalysedImage> {

@@ -9,13 +9,10 @@ function select(a: Float64Array, count: number, k: number): number {
   while (lo < hi) {
     const mid = (lo + hi) >>> 1;
     // median of three as pivot
-    let x = a[lo]!;
-    let y = a[mid]!;
-    let z = a[hi]!;
-    if (x > y) [x, y] = [y, x];
-    if (y > z) [y, z] = [z, y];
-    if (x > y) [x, y] = [y, x];
-    const pivot = y;
+    const x = a[lo]!;
+    const y = a[mid]!;
+    const z = a[hi]!;
+    const pivot = x < y ? (y < z ? y : x < z ? z : x) : x < z ? x : y < z ? z : y;
     let i = lo;
     let j = hi;
     while (i <= j) {

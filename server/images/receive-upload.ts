@@ -1,13 +1,12 @@
 /**
- * Receives the multipart upload (multer 2): the field `file` streamed to a temporary file in a folder of this
- * process under os.tmpdir(), at most `uploadMaxBytes`; text fields (name, plane) land in req.body.
+ * Receives the multipart upload (multer 2): the field `file` streamed to a temporary file in os.tmpdir(), at most
+ * `uploadMaxBytes`; text fields (name, plane) land in req.body.
  * The temporary file is removed when the response ends, whatever happened (multer itself removes partial files
  * when it refuses an upload or the client goes away).
  */
 import { randomBytes } from 'node:crypto';
-import { mkdirSync, rmSync } from 'node:fs';
+import { rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import path from 'node:path';
 
 import type { RequestHandler } from 'express';
 import multer from 'multer';
@@ -15,9 +14,9 @@ import multer from 'multer';
 import { formatBytes } from '../engine/io/sky-image';
 import { AppError, badRequest } from '../http/app-error';
 
-/** Where uploads wait while they are read; one folder per process so tests can check it is left empty. */
-export function uploadDirectory(): string {
-  return path.join(tmpdir(), `skysieve-uploads-${process.pid}`);
+/** Uploads wait in os.tmpdir() under this name prefix (one per process, so tests can check nothing is left). */
+export function uploadFilePrefix(): string {
+  return `skysieve-upload-${process.pid}-`;
 }
 
 export const missingFileMessage = 'Send the image as multipart/form-data with the file in the field "file".';
@@ -31,17 +30,9 @@ export function tooLargeMessage(limit: number, requestBytes: number | undefined)
 export function receiveUpload(uploadMaxBytes: number): RequestHandler {
   const upload = multer({
     storage: multer.diskStorage({
-      destination(_req, _file, callback) {
-        const folder = uploadDirectory();
-        try {
-          mkdirSync(folder, { recursive: true });
-          callback(null, folder);
-        } catch (error) {
-          callback(error as Error, folder);
-        }
-      },
+      destination: tmpdir(),
       filename(_req, _file, callback) {
-        callback(null, `upload-${randomBytes(12).toString('hex')}`);
+        callback(null, `${uploadFilePrefix()}${randomBytes(12).toString('hex')}`);
       },
     }),
     limits: { fileSize: uploadMaxBytes, files: 1, fields: 10, fieldSize: 4096, parts: 12 },

@@ -4,14 +4,15 @@
  * refused by the reader, too large, duplicate), and a client that disconnects in the middle of its upload leaves
  * no image row, no quota charge and no temporary file.
  */
-import { existsSync, readdirSync } from 'node:fs';
+import { readdirSync } from 'node:fs';
 import { createServer, type Server } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { connect } from 'node:net';
+import { tmpdir } from 'node:os';
 
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
-import { uploadDirectory } from '../../../server/images/receive-upload';
+import { uploadFilePrefix } from '../../../server/images/receive-upload';
 import { Image } from '../../../server/models/image';
 import { Membership } from '../../../server/models/membership';
 import { Project } from '../../../server/models/project';
@@ -43,7 +44,7 @@ afterAll(async () => {
   await t?.close();
 });
 
-const leftovers = () => (existsSync(uploadDirectory()) ? readdirSync(uploadDirectory()) : []);
+const leftovers = () => readdirSync(tmpdir()).filter((name) => name.startsWith(uploadFilePrefix()));
 
 /** Waits until the upload folder is empty (removal happens when the response closes), at most 3 s. */
 async function expectNoLeftovers(): Promise<void> {

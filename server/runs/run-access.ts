@@ -16,7 +16,7 @@ export const runNotFoundMessage = 'Run not found.';
 
 const roleMessages: Record<ProjectRole, string> = {
   viewer: 'You need to be a member of this project.',
-  editor: 'Only project owners and editors can start or cancel runs.',
+  editor: 'Only project owners and editors can start, cancel or delete runs.',
   owner: 'Only project owners can do this.',
 };
 

@@ -33,6 +33,10 @@ export function runsController(ctx: AppContext, eventOptions: RunEventOptions = 
     async cancel(_req: ApiRequest<unknown, IdParams>, res: Response) {
       res.json(runs.toRunSummary(await runs.cancelRun(ctx, runOf(res).id)));
     },
+    async remove(_req: ApiRequest<unknown, IdParams>, res: Response) {
+      await runs.deleteRun(runOf(res).id);
+      res.status(204).end();
+    },
     events(req: ApiRequest<unknown, IdParams>, res: Response) {
       streamRunEvents(ctx.knex, runOf(res).id, req, res, eventOptions);
     },

@@ -69,6 +69,17 @@ export function runRoutes(ctx: AppContext, eventOptions: RunEventOptions = {}): 
       handler: controller.cancel,
     }),
     defineRoute({
+      method: 'delete',
+      path: '/api/runs/:id',
+      summary: 'Delete a finished run and its results, freeing their storage (editors, owners, admins)',
+      tag,
+      access: 'signed-in',
+      params: runIdParamsSchema,
+      load: [loadRun('editor')],
+      responses: { 204: { description: 'Deleted' }, ...errors(403, 404, 409) },
+      handler: controller.remove,
+    }),
+    defineRoute({
       method: 'get',
       path: '/api/runs/:id/events',
       summary:

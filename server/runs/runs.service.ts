@@ -174,6 +174,20 @@ export async function cancelRun(ctx: AppContext, runId: number): Promise<Run> {
   return (await Run.query().findById(runId))!;
 }
 
+/** Deletes a finished run with its sources and planes; the trigger on `runs` gives the result bytes back. */
+export async function deleteRun(runId: number): Promise<void> {
+  await Run.transaction(async (trx) => {
+    const run = await Run.query(trx).modify('withoutDiagnostics').findById(runId).forUpdate();
+    if (!run) throw notFound('Run not found.');
+    if (!isTerminalRunStatus(run.status)) {
+      throw conflict(
+        `Run ${run.id} is ${run.status}; cancel it and wait until it has stopped before deleting it.`,
+      );
+    }
+    await Run.query(trx).deleteById(runId);
+  });
+}
+
 // ---- results ----
 
 function requireSucceeded(run: Run): void {

@@ -24,7 +24,7 @@ import { fastSettings, type RunFixture, runFixture } from './run-support';
 
 type Actor = 'admin' | 'owner' | 'editor' | 'viewer' | 'non-member' | 'signed-out' | 'owner token';
 const actors: Actor[] = ['admin', 'owner', 'editor', 'viewer', 'non-member', 'signed-out', 'owner token'];
-type Caller = Pick<BrowserClient, 'get' | 'post'>;
+type Caller = Pick<BrowserClient, 'get' | 'post' | 'delete'>;
 
 let t: TestApp;
 let f: RunFixture;
@@ -175,6 +175,14 @@ const actions: Action[] = [
     call: async (c) => c.post(`/api/runs/${queuedRunId}/cancel`),
     expected: write(200),
   },
+  {
+    name: 'delete a finished run',
+    prepare: async () => {
+      queuedRunId = await insertFinishedRun();
+    },
+    call: async (c) => c.delete(`/api/runs/${queuedRunId}`),
+    expected: write(204),
+  },
 ];
 
 describe.each(actions)('$name', (action) => {
@@ -187,8 +195,15 @@ describe.each(actions)('$name', (action) => {
     if (expected === 404) expect(response.body.error?.message).toMatch(/^(Image|Run) not found\.$/);
     if (expected === 401) expect(response.body.error?.message).toBe('Sign in to continue.');
     if (expected === 403)
-      expect(response.body.error?.message).toBe('Only project owners and editors can start or cancel runs.');
+      expect(response.body.error?.message).toBe(
+        'Only project owners and editors can start, cancel or delete runs.',
+      );
     if (action.name === 'start a run') expect(await runCount()).toBe(before + (expected === 202 ? 1 : 0));
+    if (action.name === 'delete a finished run') {
+      expect(await Run.query().findById(queuedRunId)).toEqual(expected === 204 ? undefined : expect.any(Run));
+      const sources = await t.ctx.knex('run_sources').where('runId', queuedRunId).count({ n: '*' });
+      expect(Number(sources[0]!.n)).toBe(expected === 204 ? 0 : 1);
+    }
     if (action.name === 'cancel a queued run') {
       const run = await Run.query().findById(queuedRunId);
       expect(run!.status).toBe(expected === 200 ? 'cancelled' : 'queued');

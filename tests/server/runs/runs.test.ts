@@ -300,6 +300,25 @@ describe('a run that succeeds', () => {
     expect(finished?.text).toContain(`http://skysieve.test/runs/${runId}`);
   });
 
+  it('deletes a finished run and gives its storage back; a running one cannot be deleted', async () => {
+    const extra = await owner.post(`/api/images/${f.imageId}/runs`, { settings: fastSettings });
+    const finished = await waitForRun(
+      get,
+      extra.body.id,
+      (body) => !['queued', 'running'].includes(body.status),
+    );
+    expect(finished.status).toBe('succeeded');
+    const before = (await User.query().findById(f.owner.id))!.bytesUsed;
+    const removed = await owner.delete(`/api/runs/${extra.body.id}`);
+    expect(removed.status).toBe(204);
+    const after = (await User.query().findById(f.owner.id))!.bytesUsed;
+    // The release trigger of migrations/202612020600-create-runs.ts, in the deleting transaction.
+    expect(before - after).toBe(finished.resultBytes);
+    expect((await get(`/api/runs/${extra.body.id}`)).status).toBe(404);
+    const planes = await t.ctx.knex('run_components').where('runId', extra.body.id).count({ n: '*' });
+    expect(Number(planes[0]!.n)).toBe(0);
+  }, 90_000);
+
   it('lists the runs of the image', async () => {
     const response = await get(`/api/images/${f.imageId}/runs`);
     expect(response.status).toBe(200);
@@ -335,6 +354,14 @@ describe('cancel, events and failure', () => {
       apiError('conflict', `Run ${queued.body.id} has already been cancelled; there is nothing to cancel.`),
     );
 
+    const deleteRunning = await editor.delete(`/api/runs/${slow.body.id}`);
+    expect(deleteRunning.status).toBe(409);
+    expect(deleteRunning.body).toEqual(
+      apiError(
+        'conflict',
+        `Run ${slow.body.id} is running; cancel it and wait until it has stopped before deleting it.`,
+      ),
+    );
     const cancelRunning = await editor.post(`/api/runs/${slow.body.id}/cancel`);
     expect(cancelRunning.status).toBe(200);
     expect(cancelRunning.body).toMatchObject({ status: 'running', cancelRequested: true });

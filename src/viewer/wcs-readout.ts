@@ -3,7 +3,9 @@
  * sexagesimal. The sky position comes from a caller's `pixelToWorld` (FITS 1-based pixels → degrees), so the
  * viewer needs no projection code of its own; sexagesimal text comes from the engine's formatter.
  */
+import type { HeaderCardDto } from '@shared/images';
 import { formatDec, formatRa } from '../../server/engine/wcs/sexagesimal';
+import { parseWcs } from '../../server/engine/wcs/wcs';
 
 /** FITS pixel (1-based) → world longitude/latitude in degrees, or null where the projection has no solution. */
 export type PixelToWorld = (x: number, y: number) => { lon: number; lat: number } | null;
@@ -17,6 +19,19 @@ export interface Readout {
   degrees: string | null;
   /** e.g. "10:00:28.600 +02:12:21.00" */
   sexagesimal: string | null;
+}
+
+/**
+ * The celestial pixel → world mapping of an image's header cards (the engine's WCS reader: TAN, SIN, ARC, STG,
+ * CAR, SIP), or null for a header without a celestial WCS. Pure TypeScript, shared with the server as is.
+ */
+export function pixelToWorldFromHeader(header: readonly HeaderCardDto[]): PixelToWorld | null {
+  const wcs = parseWcs(header);
+  if (!wcs || !wcs.isCelestial) return null;
+  return (x, y) => {
+    const [lon, lat] = wcs.pixelToWorld(x, y);
+    return Number.isFinite(lon) && Number.isFinite(lat) ? { lon, lat } : null;
+  };
 }
 
 /** A pixel value in four significant digits; scientific outside [1e-3, 1e5). */

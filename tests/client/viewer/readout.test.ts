@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 
-import { formatPixelValue, formatReadout } from '@/viewer/wcs-readout';
+import { formatPixelValue, formatReadout, pixelToWorldFromHeader } from '@/viewer/wcs-readout';
 import { chooseScaleBar } from '@/viewer/scale-bar';
 import { paintPlane, BLANK_RGBA } from '@/viewer/render-plane';
 import { makeStretch } from '@/viewer/stretch';
@@ -30,6 +30,43 @@ describe('readout', () => {
     expect(formatReadout({ x: 1, y: 1 }, 1, 'K', () => ({ lon: -15, lat: -30 })).degrees).toBe(
       'RA 345.00000°, Dec -30.00000°',
     );
+  });
+});
+
+describe('pixelToWorld from header cards', () => {
+  const header = [
+    { keyword: 'CTYPE1', value: 'RA---TAN' },
+    { keyword: 'CTYPE2', value: 'DEC--TAN' },
+    { keyword: 'CRPIX1', value: 513 },
+    { keyword: 'CRPIX2', value: 257 },
+    { keyword: 'CRVAL1', value: 277.5, real: true },
+    { keyword: 'CRVAL2', value: 36.2, real: true },
+    { keyword: 'CDELT1', value: -0.000416666667, real: true },
+    { keyword: 'CDELT2', value: 0.000416666667, real: true },
+  ];
+  it('maps the reference pixel to CRVAL (FITS WCS paper II: the fiducial point of a zenithal projection)', () => {
+    const toWorld = pixelToWorldFromHeader(header)!;
+    const world = toWorld(513, 257)!;
+    expect(Math.abs(world.lon - 277.5) + Math.abs(world.lat - 36.2)).toBeLessThan(1e-10);
+    // One pixel north (+y with CDELT2 > 0) raises Dec by CDELT2 (1.5″) to first order.
+    const north = toWorld(513, 258)!;
+    expect(Math.abs(north.lat - 36.2 - 0.000416666667)).toBeLessThan(1e-9);
+    // One pixel +x moves east-to-west: RA falls by 1.5″ / cos δ.
+    const west = toWorld(514, 257)!;
+    expect(Math.abs(west.lon - (277.5 - 0.000416666667 / Math.cos((36.2 * Math.PI) / 180)))).toBeLessThan(
+      1e-9,
+    );
+  });
+  it('has no sky mapping for a linear or missing WCS', () => {
+    expect(pixelToWorldFromHeader([{ keyword: 'NAXIS', value: 2 }])).toBeNull();
+    expect(
+      pixelToWorldFromHeader([
+        { keyword: 'CTYPE1', value: 'FREQ' },
+        { keyword: 'CTYPE2', value: 'TIME' },
+        { keyword: 'CDELT1', value: 1 },
+        { keyword: 'CDELT2', value: 1 },
+      ]),
+    ).toBeNull();
   });
 });
 

@@ -19,7 +19,9 @@ import { sourceColumns } from '../../../server/catalogue/catalogue-table';
 import { parseHeader } from '../../../server/engine/io/header-card';
 import { readImage } from '../../../server/engine/io/read-image';
 import { writeFits } from '../../../server/engine/io/write-fits';
+import { Run } from '../../../server/models/run';
 import { User } from '../../../server/models/user';
+import { processRunJob } from '../../../server/queue/run-job';
 import { configureRunQueue, stopRunQueue } from '../../../server/queue/run-queue';
 import { type RunWorker, startRunWorker } from '../../../server/queue/run-worker';
 import { createToken } from '../../../server/tokens/tokens.service';
@@ -425,6 +427,29 @@ describe('cancel, events and failure', () => {
     expect(failed?.text).toContain('Reason: Poisson likelihood needs counts');
   }, 90_000);
 
+  it('stops a run at its time limit and stores why', async () => {
+    // Straight into the table (no job): only this direct call of the job handler runs it.
+    const run = await insertQueuedRun(slowSettings);
+    await processRunJob(t.ctx, run, { runTimeoutMs: 1500, pollMs: 100 });
+    const stored = (await get(`/api/runs/${run}`)).body as RunDetail;
+    expect(stored.status).toBe('failed');
+    expect(stored.errorMessage).toBe(
+      'The run took longer than the time limit of 0.03 minutes (RUN_TIMEOUT_MINUTES) and was stopped.',
+    );
+    expect(stored.attempts).toBe(1);
+  }, 60_000);
+
+  it('gives a run back to the queue when its worker shuts down', async () => {
+    const run = await insertQueuedRun(slowSettings);
+    const shutdown = new AbortController();
+    const job = processRunJob(t.ctx, run, { runTimeoutMs: 60_000, shutdown: shutdown.signal, pollMs: 100 });
+    await waitForRun(get, run, (body) => body.status === 'running');
+    shutdown.abort();
+    await expect(job).rejects.toThrow('The worker shut down before the run finished; it will be run again.');
+    const stored = (await get(`/api/runs/${run}`)).body as RunDetail;
+    expect(stored).toMatchObject({ status: 'queued', attempts: 1, errorMessage: null });
+  }, 60_000);
+
   it('refuses bad settings with the schema message', async () => {
     const response = await owner.post(`/api/images/${f.imageId}/runs`, { settings: { threshold: -1 } });
     expect(response.status).toBe(400);
@@ -481,6 +506,22 @@ describe('the scripted journey (issue 5, "done when")', () => {
 });
 
 // ---- helpers ----
+
+async function insertQueuedRun(settings: object): Promise<number> {
+  const run = await Run.query().insertAndFetch({
+    imageId: f.imageId,
+    projectId: f.project.id,
+    createdBy: f.owner.id,
+    status: 'queued',
+    requestedSettings: settings as Record<string, unknown>,
+    settings: {},
+    settingsDigest: '0'.repeat(64),
+    attempts: 0,
+    cancelRequested: false,
+    resultBytes: 0,
+  });
+  return run.id;
+}
 
 // eslint-disable-next-line @typescript-eslint/no-explicit-any
 function binaryParser(res: any, callback: (error: Error | null, body: Buffer) => void) {

@@ -144,3 +144,16 @@ describe('SkyViewer', () => {
     expect(w.emitted('update:view')).toBeUndefined();
   });
 });
+
+describe('SkyViewer controls', () => {
+  it('keeps painting while the asinh softening field is being edited', async () => {
+    const w = await mountViewer();
+    await w.get('input[data-test="softening"]').setValue('');
+    await w.get('input[data-test="softening"]').setValue('-1');
+    expect(w.text()).toContain('Point at the image to read values');
+    await w.get('[data-test="clip-100"]').trigger('click');
+    // min–max of k/1000 for k = 0 … 2047 fills the typed fields with the limits in use.
+    expect((w.get('input[data-test="lower"]').element as HTMLInputElement).value).toBe('0');
+    expect((w.get('input[data-test="upper"]').element as HTMLInputElement).value).toBe('2.047');
+  });
+});

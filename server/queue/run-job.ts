@@ -238,15 +238,21 @@ export async function processRunJob(
   }
 }
 
-/** Dead-letter handler: a job that used up its retries (its workers kept dying or timing out). */
+/**
+ * Dead-letter handler: a job that used up its retries (its workers kept dying or timing out). A run whose cancel
+ * was asked for meanwhile ends cancelled; any other ends failed, with why.
+ */
 export async function markRunLost(ctx: WorkerContext, runId: number, attempts: number): Promise<void> {
   const { knex } = ctx;
+  const message =
+    `The run was started ${attempts} times and its worker stopped each time before it finished ` +
+    '(the worker process ended or the run exceeded its time limit).';
   const updated = await knex('runs')
     .where('id', runId)
     .whereIn('status', ['queued', 'running'])
     .update({
-      status: 'failed',
-      errorMessage: `The run was started ${attempts} times and its worker stopped each time before it finished (the worker process ended or the run exceeded its time limit).`,
+      status: knex.raw("case when cancel_requested then 'cancelled' else 'failed' end"),
+      errorMessage: knex.raw('case when cancel_requested then null else ? end', [message]),
       finishedAt: knex.fn.now(),
       updatedAt: knex.fn.now(),
     });

@@ -21,7 +21,7 @@ import { readImage } from '../../../server/engine/io/read-image';
 import { writeFits } from '../../../server/engine/io/write-fits';
 import { Run } from '../../../server/models/run';
 import { User } from '../../../server/models/user';
-import { processRunJob } from '../../../server/queue/run-job';
+import { markRunLost, processRunJob } from '../../../server/queue/run-job';
 import { configureRunQueue, stopRunQueue } from '../../../server/queue/run-queue';
 import { type RunWorker, startRunWorker } from '../../../server/queue/run-worker';
 import { createToken } from '../../../server/tokens/tokens.service';
@@ -449,6 +449,24 @@ describe('cancel, events and failure', () => {
     const stored = (await get(`/api/runs/${run}`)).body as RunDetail;
     expect(stored).toMatchObject({ status: 'queued', attempts: 1, errorMessage: null });
   }, 60_000);
+
+  it('marks a run whose job used up its retries (dead letter) failed, or cancelled when that was asked', async () => {
+    const lost = await insertQueuedRun(fastSettings);
+    const cancelled = await insertQueuedRun(fastSettings);
+    await Run.query().patch({ status: 'running', attempts: 3 }).whereIn('id', [lost, cancelled]);
+    await Run.query().patch({ cancelRequested: true }).where('id', cancelled);
+    await markRunLost(t.ctx, lost, 3);
+    await markRunLost(t.ctx, cancelled, 3);
+    expect((await get(`/api/runs/${lost}`)).body).toMatchObject({
+      status: 'failed',
+      errorMessage:
+        'The run was started 3 times and its worker stopped each time before it finished (the worker process ended or the run exceeded its time limit).',
+    });
+    expect((await get(`/api/runs/${cancelled}`)).body).toMatchObject({
+      status: 'cancelled',
+      errorMessage: null,
+    });
+  });
 
   it('refuses bad settings with the schema message', async () => {
     const response = await owner.post(`/api/images/${f.imageId}/runs`, { settings: { threshold: -1 } });

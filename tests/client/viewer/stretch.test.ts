@@ -1,7 +1,13 @@
 import { describe, expect, it } from 'vitest';
 
 import { makeStretch, stretchCurve } from '@/viewer/stretch';
-import { clipLimits, parseTypedLimits, quantileOfSorted, sortedValidValues } from '@/viewer/limits';
+import {
+  clipLimits,
+  orderStatistics,
+  parseTypedLimits,
+  quantile,
+  sortedOrderStatistics,
+} from '@/viewer/limits';
 
 const TOL = 1e-12;
 
@@ -78,16 +84,47 @@ describe('limits from percentiles', () => {
   const mask = new Uint8Array(data.length);
   mask[data.length - 1] = 1;
 
-  it('keeps only the finite, unmasked values, sorted', () => {
-    const sorted = sortedValidValues(data, mask);
-    expect(sorted.length).toBe(101);
-    expect(Array.from(sorted)).toEqual(Array.from({ length: 101 }, (_, i) => i));
+  it('keeps only the finite, unmasked values, in order', () => {
+    const sorted = orderStatistics(data, mask);
+    expect(sorted.count).toBe(101);
+    expect(Array.from({ length: 101 }, (_, k) => sorted.at(k))).toEqual(
+      Array.from({ length: 101 }, (_, i) => i),
+    );
+  });
+  it('histogram order statistics equal those of a full sort (naive reference in the test)', () => {
+    // Pseudo-random values with heavy ties and a long tail, NaNs and a mask; fixed seed.
+    let seed = 7;
+    const next = () => (seed = (seed * 16807) % 2147483647) / 2147483647;
+    const n = 20000;
+    const values = Float32Array.from({ length: n }, (_, i) =>
+      i % 97 === 0 ? NaN : i % 5 === 0 ? 0.25 : Math.exp(8 * next()) - 1,
+    );
+    const masked = Uint8Array.from({ length: n }, (_, i) => (i % 13 === 0 ? 1 : 0));
+    const reference = Float32Array.from(
+      Array.from(values).filter((v, i) => Number.isFinite(v) && !masked[i]),
+    ).sort();
+    const fast = orderStatistics(values, masked);
+    expect(fast.count).toBe(reference.length);
+    for (const k of [
+      0,
+      1,
+      17,
+      1000,
+      Math.floor(reference.length / 2),
+      reference.length - 2,
+      reference.length - 1,
+    ]) {
+      expect(fast.at(k), `rank ${k}: expected ${reference[k]}, got ${fast.at(k)}`).toBe(reference[k]);
+    }
+    for (const clip of [99, 99.5, 99.9, 100]) {
+      expect(clipLimits(fast, clip)).toEqual(clipLimits(sortedOrderStatistics(reference), clip));
+    }
   });
   it('percentiles interpolate between order statistics (Hyndman & Fan definition 7)', () => {
-    const sorted = sortedValidValues(data, mask);
+    const sorted = orderStatistics(data, mask);
     // n = 101, h = 100 q: the q-quantile of 0..100 is exactly 100 q.
-    close(quantileOfSorted(sorted, 0.0025), 0.25, 'q = 0.25 %');
-    close(quantileOfSorted(sorted, 0.9975), 99.75, 'q = 99.75 %');
+    close(quantile(sorted, 0.0025), 0.25, 'q = 0.25 %');
+    close(quantile(sorted, 0.9975), 99.75, 'q = 99.75 %');
     // 99.5 % clip → 0.25 % and 99.75 %; 99.9 % → 0.05 % and 99.95 %; 100 % → min and max.
     const c995 = clipLimits(sorted, 99.5);
     close(c995.lower, 0.25, '99.5 % lower');
@@ -97,10 +134,10 @@ describe('limits from percentiles', () => {
     expect(Math.abs(c999.upper - 99.95)).toBeLessThan(1e-9);
     expect(clipLimits(sorted, 100)).toEqual({ lower: 0, upper: 100 });
     // Four values 1, 2, 3, 10: median h = 1.5 → 2.5 (numpy.percentile([1,2,3,10], 50) = 2.5).
-    close(quantileOfSorted(new Float32Array([1, 2, 3, 10]), 0.5), 2.5, 'median of 1,2,3,10');
+    close(quantile(orderStatistics(new Float32Array([10, 2, 1, 3])), 0.5), 2.5, 'median of 1,2,3,10');
   });
   it('an all-blank plane and bad typed limits get plain messages', () => {
-    expect(() => clipLimits(sortedValidValues(new Float32Array([NaN, NaN])), 99.5)).toThrow(
+    expect(() => clipLimits(orderStatistics(new Float32Array([NaN, NaN])), 99.5)).toThrow(
       'There are no valid pixels to take limits from.',
     );
     expect(parseTypedLimits('1', 'x')).toEqual({ error: 'Enter a number for the upper limit.' });

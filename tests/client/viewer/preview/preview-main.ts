@@ -11,7 +11,7 @@ import 'quasar/dist/quasar.css';
 
 import SkyViewer from '@/components/viewer/SkyViewer.vue';
 import type { ViewerSource } from '@/viewer/markers';
-import { sortedValidValues } from '@/viewer/limits';
+import { orderStatistics } from '@/viewer/limits';
 import { paintPlane } from '@/viewer/render-plane';
 import { makeStretch } from '@/viewer/stretch';
 import { panBy, rasterRectangle, type Point, type View } from '@/viewer/viewport';
@@ -105,7 +105,7 @@ function measure(): Record<string, number> {
     draws.push(performance.now() - t0);
   }
   const t0 = performance.now();
-  sortedValidValues(plane.data);
+  orderStatistics(plane.data);
   const sortMs = performance.now() - t0;
   const median = (v: number[]) => [...v].sort((a, b) => a - b)[Math.floor(v.length / 2)]!;
   return { paintMedianMs: median(paints), redrawMedianMs: median(draws), percentileSortMs: sortMs };

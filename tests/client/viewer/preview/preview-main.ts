@@ -11,7 +11,7 @@ import 'quasar/dist/quasar.css';
 
 import SkyViewer from '@/components/viewer/SkyViewer.vue';
 import type { ViewerSource } from '@/viewer/markers';
-import { orderStatistics } from '@/viewer/limits';
+import { clipLimits, orderStatistics } from '@/viewer/limits';
 import { paintPlane } from '@/viewer/render-plane';
 import { makeStretch } from '@/viewer/stretch';
 import { panBy, rasterRectangle, type Point, type View } from '@/viewer/viewport';
@@ -105,10 +105,10 @@ function measure(): Record<string, number> {
     draws.push(performance.now() - t0);
   }
   const t0 = performance.now();
-  orderStatistics(plane.data);
+  clipLimits(orderStatistics(plane.data), 99.5);
   const sortMs = performance.now() - t0;
   const median = (v: number[]) => [...v].sort((a, b) => a - b)[Math.floor(v.length / 2)]!;
-  return { paintMedianMs: median(paints), redrawMedianMs: median(draws), percentileSortMs: sortMs };
+  return { paintMedianMs: median(paints), redrawMedianMs: median(draws), limits995Ms: sortMs };
 }
 
 const Preview = defineComponent({

@@ -185,6 +185,24 @@ const actions: Action[] = [
   },
 ];
 
+it("refuses a run whose results would not fit the uploader's quota (413, nothing queued)", async () => {
+  const small = await runFixture(t.ctx);
+  // 7 float32 planes of 64 × 64 = 114 688 bytes are needed; leave less than that.
+  await t.ctx.knex('users').where('id', small.owner.id).update({ quotaBytes: 100_000, bytesUsed: 40_000 });
+  const client = await signIn(t.app, small.owner.email);
+  const before = await runCount();
+  const response = await client.post(`/api/images/${small.imageId}/runs`, { settings: fastSettings });
+  expect(response.status).toBe(413);
+  expect(response.body.error).toMatchObject({
+    code: 'payload_too_large',
+    details: { usedBytes: 40_000, quotaBytes: 100_000, neededBytes: 114_688 },
+  });
+  expect(response.body.error.message).toMatch(
+    /^The results of this run would not fit the storage quota of the image's uploader\. Not enough storage: /,
+  );
+  expect(await runCount()).toBe(before);
+});
+
 describe.each(actions)('$name', (action) => {
   it.each(actors)('as %s', async (actor) => {
     await action.prepare?.();

@@ -43,11 +43,13 @@ import {
   type AdminUpdateUserRequest,
   type AuditAction,
 } from '@shared/admin';
+import { decodePixelView, imageSummarySchema, type ImageSummary, type PixelView } from '@shared/images';
 
 /** A failed API call: `status` 0 means the server could not be reached or answered something unreadable. */
 export class ApiError extends Error {
   readonly status: number;
-  readonly code: ErrorCode | 'network' | 'unexpected_response';
+  /** 'cancelled': the caller stopped the request (e.g. an upload) before the server answered. */
+  readonly code: ErrorCode | 'network' | 'unexpected_response' | 'cancelled';
   readonly details: unknown;
 
   constructor(status: number, code: ApiError['code'], message: string, details?: unknown) {
@@ -74,6 +76,27 @@ interface RequestOptions<T> {
   /** Schema of a 2xx answer with a body; omitted for 202/204 answers whose body is ignored. */
   schema?: z.ZodType<T>;
 }
+
+/** What an upload reports while the file is being sent. */
+export interface UploadProgress {
+  loaded: number;
+  /** null when the browser cannot tell the size being sent. */
+  total: number | null;
+}
+
+export interface UploadImageOptions {
+  /** Image name; the server uses the file name without its extension when omitted. */
+  name?: string;
+  /** 1-based plane of a FITS cube. */
+  plane?: number;
+  onProgress?: (progress: UploadProgress) => void;
+  /** Aborting it cancels the upload; the promise then rejects with an ApiError of code 'cancelled'. */
+  signal?: AbortSignal;
+}
+
+const UNREACHABLE = 'The Skysieve server cannot be reached. Check your connection and try again.';
+/** How many decoded pixel views the client keeps for ETag revalidation (each up to 16 MiB at 2048²). */
+const PIXEL_VIEW_CACHE_ENTRIES = 4;
 
 export interface ApiClientOptions {
   /** Defaults to the global fetch; tests pass a mock. */
@@ -109,27 +132,34 @@ export function createApiClient(options: ApiClientOptions = {}) {
         body: body === undefined ? undefined : JSON.stringify(body),
       });
     } catch {
-      throw new ApiError(
-        0,
-        'network',
-        'The Skysieve server cannot be reached. Check your connection and try again.',
-      );
+      throw new ApiError(0, 'network', UNREACHABLE);
     }
+  }
+
+  function errorFromBody(status: number, statusText: string, json: unknown): ApiError {
+    const parsed = errorBodySchema.safeParse(json);
+    if (parsed.success) {
+      const { code, message, details } = parsed.data.error;
+      return new ApiError(status, code, message, details);
+    }
+    return new ApiError(
+      status,
+      'unexpected_response',
+      `The server answered ${status} ${statusText || ''}`.trim() + ' without an explanation.',
+    );
   }
 
   async function errorFrom(response: Response): Promise<ApiError> {
     const json: unknown = await response.json().catch(() => undefined);
-    const parsed = errorBodySchema.safeParse(json);
-    if (parsed.success) {
-      const { code, message, details } = parsed.data.error;
-      return new ApiError(response.status, code, message, details);
+    return errorFromBody(response.status, response.statusText, json);
+  }
+
+  function reportSessionEnd(error: ApiError, path: string): void {
+    // A session that ended elsewhere (expired, account disabled); "who is signed in?" and sign-in itself
+    // answer 401 as part of their normal job.
+    if (error.code === 'unauthenticated' && path !== '/api/auth/me' && path !== '/api/auth/login') {
+      onSessionEnded?.();
     }
-    return new ApiError(
-      response.status,
-      'unexpected_response',
-      `The server answered ${response.status} ${response.statusText || ''}`.trim() +
-        ' without an explanation.',
-    );
   }
 
   async function request<T>(method: Method, path: string, opts: RequestOptions<T> = {}): Promise<T> {
@@ -144,11 +174,7 @@ export function createApiClient(options: ApiClientOptions = {}) {
         if (response.ok) return parse(response, opts.schema, method, path);
         error = await errorFrom(response);
       }
-      // A session that ended elsewhere (expired, account disabled); "who is signed in?" and sign-in itself
-      // answer 401 as part of their normal job.
-      if (error.code === 'unauthenticated' && path !== '/api/auth/me' && path !== '/api/auth/login') {
-        onSessionEnded?.();
-      }
+      reportSessionEnd(error, path);
       throw error;
     }
     return parse(response, opts.schema, method, path);
@@ -174,6 +200,140 @@ export function createApiClient(options: ApiClientOptions = {}) {
     return parsed.data;
   }
 
+  const pixelViews = new Map<string, { etag: string; view: PixelView }>();
+
+  /**
+   * GET of a binary pixel view. The answer's ETag is remembered, so asking again for the same view sends
+   * If-None-Match and a 304 reuses the decoded view instead of moving the bytes again.
+   */
+  async function requestPixelView(path: string, query: Query): Promise<PixelView> {
+    const url = withQuery(path, query);
+    const cached = pixelViews.get(url);
+    const headers: Record<string, string> = { accept: 'application/octet-stream' };
+    if (cached) headers['if-none-match'] = cached.etag;
+    let response: Response;
+    try {
+      response = await doFetch(baseUrl + url, { method: 'GET', headers, credentials: 'same-origin' });
+    } catch {
+      throw new ApiError(0, 'network', UNREACHABLE);
+    }
+    if (response.status === 304 && cached) return cached.view;
+    if (!response.ok) {
+      const error = await errorFrom(response);
+      reportSessionEnd(error, path);
+      throw error;
+    }
+    let view: PixelView;
+    try {
+      view = decodePixelView(new Uint8Array(await response.arrayBuffer()));
+    } catch (failure) {
+      const reason = failure instanceof Error ? failure.message : String(failure);
+      throw new ApiError(
+        response.status,
+        'unexpected_response',
+        `The server's pixel view could not be read (${reason})`,
+      );
+    }
+    const etag = response.headers.get('etag');
+    pixelViews.delete(url);
+    if (etag) {
+      pixelViews.set(url, { etag, view });
+      // Map keeps insertion order: the first key is the least recently stored view.
+      while (pixelViews.size > PIXEL_VIEW_CACHE_ENTRIES) pixelViews.delete(pixelViews.keys().next().value!);
+    }
+    return view;
+  }
+
+  /** One multipart POST through XMLHttpRequest (fetch cannot report upload progress). */
+  function sendMultipart(
+    path: string,
+    form: FormData,
+    token: string,
+    options: UploadImageOptions,
+  ): Promise<{ status: number; statusText: string; json: unknown }> {
+    return new Promise((resolve, reject) => {
+      const signal = options.signal;
+      if (signal?.aborted) {
+        reject(new ApiError(0, 'cancelled', 'The upload was cancelled.'));
+        return;
+      }
+      const xhr = new globalThis.XMLHttpRequest();
+      const onAbort = () => xhr.abort();
+      const finish = () => signal?.removeEventListener('abort', onAbort);
+      xhr.open('POST', baseUrl + path);
+      xhr.withCredentials = true;
+      xhr.setRequestHeader('accept', 'application/json');
+      xhr.setRequestHeader('x-csrf-token', token);
+      xhr.upload.onprogress = (event: ProgressEvent) => {
+        options.onProgress?.({ loaded: event.loaded, total: event.lengthComputable ? event.total : null });
+      };
+      xhr.onload = () => {
+        finish();
+        let json: unknown;
+        try {
+          json = xhr.responseText ? JSON.parse(xhr.responseText) : undefined;
+        } catch {
+          json = undefined;
+        }
+        resolve({ status: xhr.status, statusText: xhr.statusText, json });
+      };
+      xhr.onerror = () => {
+        finish();
+        reject(new ApiError(0, 'network', UNREACHABLE));
+      };
+      xhr.onabort = () => {
+        finish();
+        reject(new ApiError(0, 'cancelled', 'The upload was cancelled.'));
+      };
+      signal?.addEventListener('abort', onAbort);
+      xhr.send(form);
+    });
+  }
+
+  /**
+   * Uploads an image file (multipart `file`, `name`, `plane`) with progress; the 201 answer is parsed with the
+   * shared schema, refusals (409, 413, 422, …) become an ApiError with the server's own message.
+   */
+  async function uploadImage(
+    projectId: number,
+    file: Blob,
+    fileName: string,
+    options: UploadImageOptions = {},
+  ): Promise<ImageSummary> {
+    const path = `/api/projects/${encodeURIComponent(String(projectId))}/images`;
+    const form = () => {
+      const data = new FormData();
+      if (options.name !== undefined) data.set('name', options.name);
+      if (options.plane !== undefined) data.set('plane', String(options.plane));
+      data.set('file', file, fileName);
+      return data;
+    };
+    let answer = await sendMultipart(path, form(), await csrf(), options);
+    if (answer.status < 200 || answer.status >= 300) {
+      let error = errorFromBody(answer.status, answer.statusText, answer.json);
+      if (error.code === 'csrf_invalid') {
+        csrfToken = null;
+        answer = await sendMultipart(path, form(), await csrf(), options);
+        if (answer.status < 200 || answer.status >= 300)
+          error = errorFromBody(answer.status, answer.statusText, answer.json);
+      }
+      if (answer.status < 200 || answer.status >= 300) {
+        reportSessionEnd(error, path);
+        throw error;
+      }
+    }
+    const parsed = imageSummarySchema.safeParse(answer.json);
+    if (!parsed.success) {
+      throw new ApiError(
+        answer.status,
+        'unexpected_response',
+        `The server's answer to POST ${path} did not have the expected shape.`,
+        { issues: parsed.error.issues.map((issue) => ({ path: issue.path, message: issue.message })) },
+      );
+    }
+    return parsed.data;
+  }
+
   function csrf(): Promise<string> {
     csrfToken ??= (async () => {
       const response = await doFetch(`${baseUrl}/api/auth/csrf`, {
@@ -181,11 +341,7 @@ export function createApiClient(options: ApiClientOptions = {}) {
         headers: { accept: 'application/json' },
         credentials: 'same-origin',
       }).catch(() => {
-        throw new ApiError(
-          0,
-          'network',
-          'The Skysieve server cannot be reached. Check your connection and try again.',
-        );
+        throw new ApiError(0, 'network', UNREACHABLE);
       });
       if (!response.ok) throw await errorFrom(response);
       return (await parse(response, csrfTokenResponseSchema, 'GET', '/api/auth/csrf')).token;
@@ -274,6 +430,12 @@ export function createApiClient(options: ApiClientOptions = {}) {
         request('GET', `/api/projects/${id(projectId)}/invitations`, { schema: invitationListSchema }),
       revokeInvitation: (projectId: number, invitationId: number) =>
         request<void>('DELETE', `/api/projects/${id(projectId)}/invitations/${id(invitationId)}`),
+    },
+    images: {
+      /** Block-averaged float32 view of an image whose longest side is at most `maxSize` (16…4096). */
+      pixels: (imageId: number, maxSize = 1024) =>
+        requestPixelView(`/api/images/${id(imageId)}/pixels`, { maxSize }),
+      upload: uploadImage,
     },
     admin: {
       users: () => request('GET', '/api/admin/users', { schema: adminUserListSchema }),

@@ -1,58 +1,13 @@
 import { afterEach, describe, expect, it } from 'vitest';
 
-import type { ImageDetail, ImageSummary } from '@shared/images';
+import type { ImageDetail } from '@shared/images';
 import ImageLibraryPage from '@/pages/ImageLibraryPage.vue';
-import { apiError, mockApi } from '../support/api-mock';
+import { apiError } from '../support/api-mock';
 import { makeUser } from '../support/fixtures';
+import { makeImage, mockLibraryApi } from './library-support';
 import { mountPage, notifications, pageText, settle, unmountAll } from '../support/mount';
 
 afterEach(unmountAll);
-
-// Invented images of the fictional Lyra Deep Field (Aster Wide Survey).
-function makeImage(overrides: Partial<ImageSummary> = {}): ImageSummary {
-  return {
-    id: 11,
-    projectId: 7,
-    name: 'LDF 1.4 GHz mosaic',
-    originalFileName: 'ldf-l-band.fits',
-    format: 'fits',
-    gzipped: false,
-    width: 2048,
-    height: 1024,
-    plane: null,
-    unit: 'Jy/beam',
-    fileBytes: 8 * 1024 * 1024,
-    contentSha256: 'a'.repeat(64),
-    statistics: {
-      min: -0.001,
-      max: 0.2,
-      mean: 0.0001,
-      median: 0,
-      standardDeviation: 0.002,
-      validPixels: 2097152,
-      blankPixels: 0,
-    },
-    noise: { sigma: 0.000123, samples: 2000000, sigmaUncertainty: 0.0000001 },
-    wcs: {
-      celestial: true,
-      projection: 'SIN',
-      frame: 'ICRS',
-      equinox: null,
-      ctype: ['RA---SIN', 'DEC--SIN'],
-      referencePixel: [1024.5, 512.5],
-      referenceValue: [277.5, 36.2],
-      pixelScaleArcsec: [-1.5, 1.5],
-      cdelt1Sign: -1,
-      centre: { lon: 277.5, lat: 36.2 },
-    },
-    beam: { majorArcsec: 6, minorArcsec: 4.5, paDeg: 30, areaPixels: 13.6 },
-    warnings: [],
-    uploadedBy: { id: 1, displayName: 'Vega Lindqvist' },
-    createdAt: '2026-03-02T10:00:00.000Z',
-    updatedAt: '2026-03-02T10:00:00.000Z',
-    ...overrides,
-  };
-}
 
 const mosaic = makeImage();
 const counts = makeImage({
@@ -82,7 +37,7 @@ const owner = makeUser({ id: 1 });
 
 describe('ImageLibraryPage', () => {
   it('lists the images with dimensions, unit, beam, pixel scale, noise, size', async () => {
-    const api = mockApi({ 'GET /api/projects/:id/images': { body: [counts, mosaic] } });
+    const api = mockLibraryApi({ 'GET /api/projects/:id/images': { body: [counts, mosaic] } });
     await mountPage(ImageLibraryPage, { path: '/projects/7/images', user: owner });
     const text = pageText();
     expect(text).toContain('LDF 1.4 GHz mosaic');
@@ -96,7 +51,7 @@ describe('ImageLibraryPage', () => {
   });
 
   it('searches by words in name, file name and unit', async () => {
-    mockApi({ 'GET /api/projects/:id/images': { body: [counts, mosaic] } });
+    mockLibraryApi({ 'GET /api/projects/:id/images': { body: [counts, mosaic] } });
     const { wrapper } = await mountPage(ImageLibraryPage, { path: '/projects/7/images', user: owner });
     await wrapper.get('input[data-test="image-search"]').setValue('count');
     const rows = wrapper.findAll('[data-test="image-table"] tbody tr').map((row) => row.text());
@@ -105,7 +60,7 @@ describe('ImageLibraryPage', () => {
   });
 
   it('opens the details with the WCS summary and searchable header cards', async () => {
-    mockApi({
+    mockLibraryApi({
       'GET /api/projects/:id/images': { body: [mosaic] },
       'GET /api/images/:id': { body: mosaicDetail },
     });
@@ -124,7 +79,7 @@ describe('ImageLibraryPage', () => {
   });
 
   it('renames, and puts the old name back with the server message when refused', async () => {
-    const api = mockApi({
+    const api = mockLibraryApi({
       'GET /api/projects/:id/images': { body: [mosaic] },
       'GET /api/images/:id': { body: mosaicDetail },
       'PATCH /api/images/:id': apiError(403, 'forbidden', 'Viewers of a project cannot rename its images.'),
@@ -141,7 +96,7 @@ describe('ImageLibraryPage', () => {
   });
 
   it('deletes after the name is typed again', async () => {
-    const api = mockApi({
+    const api = mockLibraryApi({
       'GET /api/projects/:id/images': { body: [mosaic, counts] },
       'GET /api/images/:id': { body: mosaicDetail },
       'DELETE /api/images/:id': { status: 204 },
@@ -169,11 +124,13 @@ describe('ImageLibraryPage', () => {
   });
 
   it('shows the empty state and the load error with a retry', async () => {
-    mockApi({ 'GET /api/projects/:id/images': { body: [] } });
+    mockLibraryApi({ 'GET /api/projects/:id/images': { body: [] } });
     await mountPage(ImageLibraryPage, { path: '/projects/7/images', user: owner });
     expect(pageText()).toContain('No images in this project yet.');
     unmountAll();
-    mockApi({ 'GET /api/projects/:id/images': apiError(404, 'not_found', 'Project 7 does not exist.') });
+    mockLibraryApi({
+      'GET /api/projects/:id/images': apiError(404, 'not_found', 'Project 7 does not exist.'),
+    });
     await mountPage(ImageLibraryPage, { path: '/projects/7/images', user: owner });
     expect(pageText()).toContain('Project 7 does not exist.');
     expect(pageText()).toContain('Try again');

@@ -1,12 +1,15 @@
 /**
  * npm start: PostgreSQL (own cluster in .data/pg unless DATABASE_URL is set), migrations, demo seed,
- * admin bootstrap, client build when stale, then the app on one port. Ctrl-C stops server and database.
+ * admin bootstrap, client build when stale, then the app on one port with one separation worker.
+ * Ctrl-C stops worker, server and database.
  */
 import { spawnSync } from 'node:child_process';
 import { existsSync, readdirSync, statSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 
+import { startRunWorker } from '../server/queue/run-worker';
+import { stopRunQueue } from '../server/queue/run-queue';
 import { listen, startRuntime } from '../server/runtime';
 import { bootDatabase, fail, printDemoAccounts, readConfig } from './lib/boot';
 
@@ -64,6 +67,9 @@ try {
   );
 }
 
+// One separation worker alongside the server; more run elsewhere with `npm run worker`.
+const worker = await startRunWorker(runtime.ctx);
+
 console.log(`\nSkysieve is running at ${http.url}\n`);
 printDemoAccounts();
 if (config.devMail) console.log('\nE-mail goes to the development inbox (sign in as admin → Admin → Mail).');
@@ -75,6 +81,8 @@ async function shutdown(signal: string): Promise<void> {
   stopping = true;
   console.log(`\n[start] ${signal}: stopping…`);
   await http.close().catch(() => undefined);
+  await worker.stop().catch(() => undefined);
+  await stopRunQueue(runtime.ctx).catch(() => undefined);
   await runtime.close().catch(() => undefined);
   await database.stop({ evenIfAdopted: true });
   process.exit(0);

@@ -1,5 +1,6 @@
 /** Runs the server against DATABASE_URL (migrations must be applied; `npm start` does all of that). */
 import { loadConfig } from './config';
+import { stopRunQueue } from './queue/run-queue';
 import { listen, startRuntime } from './runtime';
 
 const config = loadConfig();
@@ -12,6 +13,7 @@ async function stop(): Promise<void> {
   if (stopping) return;
   stopping = true;
   await http.close();
+  await stopRunQueue(runtime.ctx);
   await runtime.close();
   process.exit(0);
 }

@@ -64,6 +64,8 @@ export interface PixelAnswer {
   etag?: string;
 }
 
+export type PixelHandler = (call: PixelCall) => PixelAnswer;
+
 export interface PixelCall {
   imageId: string;
   query: URLSearchParams;
@@ -76,7 +78,7 @@ export interface PixelCall {
  */
 export function mockLibraryApi(
   routes: MockRoutes,
-  options: { role?: ProjectRole | null; pixels?: (call: PixelCall) => PixelAnswer } = {},
+  options: { role?: ProjectRole | null; pixels?: PixelHandler } = {},
 ) {
   const role = options.role === undefined ? 'owner' : options.role;
   const api = mockApi({ 'GET /api/projects/:id': { body: makeProjectDetail({ myRole: role }) }, ...routes });
@@ -103,7 +105,7 @@ export function mockLibraryApi(
         });
       const headers: Record<string, string> = { 'content-type': 'application/octet-stream' };
       if (answer.etag) headers.etag = answer.etag;
-      const body = status === 304 || !answer.view ? null : encodePixelView(answer.view);
+      const body = status === 304 || !answer.view ? null : new Blob([encodePixelView(answer.view).slice()]);
       return new Response(body, { status, headers });
     });
   }

@@ -6,12 +6,11 @@
  * ImageReadError with the reader's code and message.
  */
 import { readFile } from 'node:fs/promises';
-import { createRequire } from 'node:module';
-import { pathToFileURL } from 'node:url';
 import { Worker } from 'node:worker_threads';
 
 import { readImageAsync, type ReadImageOptions } from '../engine/io/read-image';
 import { ImageReadError, type ImageReadErrorCode } from '../engine/io/sky-image';
+import { startTypeScriptWorker } from '../engine/threads/start-typescript-worker';
 import { type AnalysedImage, analyseImage } from './image-analysis';
 
 /** Files from this size on are read in a worker thread. */
@@ -88,24 +87,8 @@ export function analyseInThread(data: AnalysisThreadData): Promise<AnalysedImage
   });
 }
 
-/** Under tsx / vitest (a .ts module) a small evaluated bootstrap registers tsx's loader first. */
 function startThread(workerData: AnalysisThreadData): Worker {
-  if (!import.meta.url.endsWith('.ts')) {
-    return new Worker(new URL('./analysis-thread-worker.js', import.meta.url), { workerData });
-  }
-  const tsxApi =
-    typeof import.meta.resolve === 'function'
-      ? import.meta.resolve('tsx/esm/api')
-      : pathToFileURL(
-          createRequire(import.meta.url)
-            .resolve('tsx/package.json')
-            .replace(/package\.json$/, 'dist/esm/api/index.mjs'),
-        ).href;
-  const entry = new URL('./analysis-thread-worker.ts', import.meta.url).href;
-  const bootstrap =
-    `import(${JSON.stringify(tsxApi)}).then((tsx) => { (tsx.register ?? tsx.default.register)(); ` +
-    `return import(${JSON.stringify(entry)}); });`;
-  return new Worker(bootstrap, { eval: true, workerData });
+  return startTypeScriptWorker(new URL('./analysis-thread-worker.ts', import.meta.url), { workerData });
 }
 
 /** Body of the thread (analysis-thread-worker.ts): read, analyse, post the planes transferred. */

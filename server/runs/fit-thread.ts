@@ -4,8 +4,6 @@
  * diagnostics, or rejects with the engine's message; an aborted signal stops the fit (FitCancelledError), and a
  * thread that does not stop within `graceMs` after the abort is terminated.
  */
-import { createRequire } from 'node:module';
-import { pathToFileURL } from 'node:url';
 import { Worker } from 'node:worker_threads';
 
 import type { CatalogueSource } from '../../shared/catalogue';
@@ -13,6 +11,7 @@ import type { ComponentName, RunDiagnostics, RunProgress } from '../../shared/ru
 import type { ResolvedSeparationSettings } from '../../shared/separation-settings';
 import type { HeaderCard } from '../engine/io/header-card';
 import type { Beam } from '../engine/psf';
+import { startTypeScriptWorker } from '../engine/threads/start-typescript-worker';
 
 export interface FitThreadInput {
   width: number;
@@ -113,22 +112,9 @@ export function runFitInThread(
   });
 }
 
-/** Under tsx/vitest (a .ts module) a small evaluated bootstrap registers tsx's loader first, as the FFT thread does. */
 function startThread(workerData: FitThreadData, transferList: ArrayBuffer[]): Worker {
-  if (!import.meta.url.endsWith('.ts')) {
-    return new Worker(new URL('./fit-thread-worker.js', import.meta.url), { workerData, transferList });
-  }
-  const tsxApi =
-    typeof import.meta.resolve === 'function'
-      ? import.meta.resolve('tsx/esm/api')
-      : pathToFileURL(
-          createRequire(import.meta.url)
-            .resolve('tsx/package.json')
-            .replace(/package\.json$/, 'dist/esm/api/index.mjs'),
-        ).href;
-  const entry = new URL('./fit-thread-worker.ts', import.meta.url).href;
-  const bootstrap =
-    `import(${JSON.stringify(tsxApi)}).then((tsx) => { (tsx.register ?? tsx.default.register)(); ` +
-    `return import(${JSON.stringify(entry)}); });`;
-  return new Worker(bootstrap, { eval: true, workerData, transferList });
+  return startTypeScriptWorker(new URL('./fit-thread-worker.ts', import.meta.url), {
+    workerData,
+    transferList,
+  });
 }

@@ -9,9 +9,9 @@
  *
  * Control words: [0] request count, [1] completed count, [2] command, [3] 1 when ready / −1 when failed.
  */
-import { createRequire } from 'node:module';
-import { pathToFileURL } from 'node:url';
 import { Worker } from 'node:worker_threads';
+
+import { startTypeScriptWorker } from '../threads/start-typescript-worker';
 
 export const COMMAND_STOP = 0;
 export const COMMAND_FORWARD_ROWS = 1;
@@ -97,27 +97,8 @@ export class FftThread {
   }
 }
 
-/**
- * Under tsx or vitest this file is TypeScript, and Node 20 does not apply `--import tsx` to a worker's entry
- * module; a small evaluated bootstrap registers tsx's loader (resolved from this file, not from the working
- * directory) and then imports the worker module.
- */
 function startWorker(workerData: FftWorkerData): Worker {
-  if (!import.meta.url.endsWith('.ts'))
-    return new Worker(new URL('./fft-worker.js', import.meta.url), { workerData });
-  const tsxApi = resolveTsxApi();
-  const entry = new URL('./fft-worker.ts', import.meta.url).href;
-  const bootstrap =
-    `import(${JSON.stringify(tsxApi)}).then((tsx) => { (tsx.register ?? tsx.default.register)(); ` +
-    `return import(${JSON.stringify(entry)}); });`;
-  return new Worker(bootstrap, { eval: true, workerData });
-}
-
-/** URL of tsx's ESM API (its `import` export; the CommonJS one fails to load its own ESM half in a worker). */
-function resolveTsxApi(): string {
-  if (typeof import.meta.resolve === 'function') return import.meta.resolve('tsx/esm/api');
-  const packageJson = createRequire(import.meta.url).resolve('tsx/package.json');
-  return pathToFileURL(packageJson.replace(/package\.json$/, 'dist/esm/api/index.mjs')).href;
+  return startTypeScriptWorker(new URL('./fft-worker.ts', import.meta.url), { workerData });
 }
 
 /** The loop run inside the worker: wait for a command, run it, report completion. */

@@ -1,5 +1,5 @@
 /**
- * npm run bench [-- --sizes 256,512] [--repeat N] [--only fft|separate] [--large]
+ * npm run bench [-- --sizes 256,512] [--repeat N] [--only fft|separate|load] [--large]
  *
  * 1. FFT table (server/bench/fft.ts): ms per 2-D real forward + inverse pair, median of N runs (default 7), for
  *    every candidate at 256², 512², 1024², 1280², 1536², 2048², 2560² (or --sizes).
@@ -9,6 +9,8 @@
  *    padded size, measured in the same process with the engine's default transform.
  *    Peak memory: RSS high-water mark sampled every 20 ms from a worker thread, and process.resourceUsage().maxRSS.
  * 3. --large: a 4096² separation that must finish under 3 GiB of RSS.
+ * 4. Load (server/runs/load-bench.ts): the app on loopback, autocannon with 50 clients against catalogue pages
+ *    and component views; p50/p95 latency and errors. Only with --only load (it starts its own PostgreSQL).
  * Targets (engine issue): ≤ 4 FFT pairs per evaluation; 1024² ≤ 30 s; 2048² ≤ 150 s; 4096² within 3 GiB.
  */
 import { spawn } from 'node:child_process';
@@ -22,7 +24,7 @@ import { median } from './stats';
 interface BenchArgs {
   sizes: number[] | null;
   repeat: number | null;
-  only: 'fft' | 'separate' | null;
+  only: 'fft' | 'separate' | 'load' | null;
   large: boolean;
 }
 
@@ -42,12 +44,12 @@ function parseArgs(argv: string[]): BenchArgs {
       if (!Number.isInteger(args.repeat) || args.repeat < 1)
         throw new Error(`--repeat needs a whole number ≥ 1, got ${value}`);
       i++;
-    } else if (flag === '--only' && (value === 'fft' || value === 'separate')) {
+    } else if (flag === '--only' && (value === 'fft' || value === 'separate' || value === 'load')) {
       args.only = value;
       i++;
     } else
       throw new Error(
-        `unknown bench argument ${flag ?? ''}; use --sizes, --repeat, --only fft|separate, --large`,
+        `unknown bench argument ${flag ?? ''}; use --sizes, --repeat, --only fft|separate|load, --large`,
       );
   }
   return args;
@@ -56,16 +58,32 @@ function parseArgs(argv: string[]): BenchArgs {
 const GiB = 1024 ** 3;
 const log = (line: string) => process.stderr.write(`${line}\n`);
 
+/** Runs a bench script of the project in a child process with tsx, from the project root. */
+function spawnBench(script: string, scriptArgs: string[], stdout: 'pipe' | 'inherit') {
+  return spawn(process.execPath, ['--import', 'tsx', script, ...scriptArgs], {
+    stdio: ['ignore', stdout, 'inherit'],
+    // `--import tsx` resolves from the working directory: run in the project root.
+    cwd: fileURLToPath(new URL('../..', import.meta.url)),
+  });
+}
+
+function runLoadBench(): Promise<void> {
+  const script = fileURLToPath(new URL('../runs/load-bench.ts', import.meta.url));
+  return new Promise((resolve, reject) => {
+    const child = spawnBench(script, [], 'inherit');
+    child.on('error', reject);
+    child.on('close', (code) =>
+      code === 0 ? resolve() : reject(new Error(`load bench exited with code ${code}`)),
+    );
+  });
+}
+
 function runOneSize(size: number, repeat: number): Promise<SeparationBenchRow> {
   const script = fileURLToPath(new URL('./separate-one.ts', import.meta.url));
   return new Promise((resolve, reject) => {
-    const child = spawn(process.execPath, ['--import', 'tsx', script, String(size), String(repeat)], {
-      stdio: ['ignore', 'pipe', 'inherit'],
-      // `--import tsx` resolves from the working directory: run in the project root.
-      cwd: fileURLToPath(new URL('../..', import.meta.url)),
-    });
+    const child = spawnBench(script, [String(size), String(repeat)], 'pipe');
     let out = '';
-    child.stdout.on('data', (chunk: Buffer) => (out += chunk.toString()));
+    child.stdout?.on('data', (chunk: Buffer) => (out += chunk.toString()));
     child.on('error', reject);
     child.on('close', (code) => {
       if (code !== 0) reject(new Error(`separation bench at ${size}² exited with code ${code}`));
@@ -107,6 +125,10 @@ async function main(): Promise<void> {
   console.log(
     `Load average at start (1, 5, 15 min): ${load}. Other processes on the machine inflate every time below.\n`,
   );
+  if (args.only === 'load') {
+    await runLoadBench();
+    return;
+  }
   if (args.only !== 'separate') {
     const repeat = Math.max(7, args.repeat ?? 7);
     const sizes = args.sizes ?? [256, 512, 1024, 1280, 1536, 2048, 2560];

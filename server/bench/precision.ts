@@ -10,15 +10,11 @@
  * f(ξ) + ε gᵀv over ε (it falls like ε until rounding noise stops it).
  */
 import { createConvolver, createHartley2d, kernelFromCentredStamp, type FftPrecision } from '../engine/fft';
+import { mulberry32 } from '../engine/random/mulberry32';
 
 function gaussianRandom(seed: number): () => number {
-  let a = seed >>> 0;
-  const uniform = () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = Math.imul(a ^ (a >>> 15), a | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return (((t ^ (t >>> 14)) >>> 0) + 0.5) / 4294967296;
-  };
+  const next = mulberry32(seed);
+  const uniform = () => (next() + 0.5) / 4294967296; // in (0, 1): never log(0)
   return () => Math.sqrt(-2 * Math.log(uniform())) * Math.cos(2 * Math.PI * uniform());
 }
 

@@ -5,7 +5,7 @@
  */
 import { crossMatchSky, haversineDistanceDeg } from './cross-match';
 import type { SkyEntry } from './cross-match';
-import { seededRandom } from './completeness';
+import { seededRandom } from '../engine/random/mulberry32';
 import { median, nowMs } from '../bench/stats';
 
 function field(n: number, random: () => number): SkyEntry[] {

@@ -22,6 +22,7 @@
  */
 import { psfStamp, psfStampHalfSize } from '../engine/psf';
 import type { Psf } from '../engine/psf';
+import { seededRandom } from '../engine/random/mulberry32';
 import { crossMatchPixels, median, robustScatter } from './cross-match';
 import { poissonLowerLimit, poissonUpperLimit } from './number-counts';
 
@@ -73,21 +74,6 @@ export interface InjectionPlanOptions {
   maxPerRun?: number;
   /** Random draws allowed per placed source before giving up. @default 2000 */
   maxAttemptsPerSource?: number;
-}
-
-/**
- * mulberry32, a small public-domain 32-bit generator (Tommy Ettinger, 2017): good enough for scattering
- * positions, and fully determined by its seed. Returns uniform numbers in [0, 1).
- */
-export function seededRandom(seed: number): () => number {
-  let state = seed >>> 0;
-  return () => {
-    state = (state + 0x6d2b79f5) >>> 0;
-    let t = state;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
 }
 
 /**

@@ -10,10 +10,10 @@ import {
   injectSources,
   matchInjected,
   planInjections,
-  seededRandom,
   wilsonInterval,
 } from '../../server/catalogue/completeness';
 import type { InjectedSource, InjectionOutcome } from '../../server/catalogue/completeness';
+import { seededRandom } from '../../server/engine/random/mulberry32';
 
 describe('Wilson score interval (Wilson 1927, JASA 22, 209)', () => {
   it('reproduces the published 95 % worked values', () => {

@@ -1,8 +1,10 @@
 /**
  * Test helpers: a naive O(N²) 2-D DFT straight from the definition
  * F(kx, ky) = Σ_{x,y} f(x, y) exp(−2πi (kx x / W + ky y / H)) (the sign convention of NumPy/SciPy), and a seeded
- * random generator, so the FFT tests compare against something outside the code under test.
+ * random input (mulberry32, server/engine/random), so the FFT tests compare against something outside the code under test.
  */
+import { seededRandom } from '../../../server/engine/random/mulberry32';
+
 export function naiveDft2d(
   input: Float64Array,
   width: number,
@@ -29,18 +31,6 @@ export function naiveDft2d(
     }
   }
   return { re, im };
-}
-
-/** Mulberry32: a small seeded generator; uniform in [0, 1). */
-export function seededRandom(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
 }
 
 export function randomArray(n: number, seed: number, offset = 0): Float64Array {

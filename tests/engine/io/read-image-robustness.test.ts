@@ -8,7 +8,7 @@ import { readFileSync } from 'node:fs';
 import { gzipSync } from 'node:zlib';
 import { describe, expect, it } from 'vitest';
 import { ImageReadError, readImage, readImageAsync } from '../../../server/engine/io/read-image';
-import { seededRandom } from '../fft/reference'; // Mulberry32, shared with the FFT tests
+import { seededRandom } from '../../../server/engine/random/mulberry32';
 
 const folder = new URL('../../fixtures/astropy/', import.meta.url);
 

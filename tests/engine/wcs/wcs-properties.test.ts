@@ -8,7 +8,7 @@ import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import type { HeaderCard } from '../../../server/engine/io/header-card';
 import { parseWcs, parseWcsWithWarnings } from '../../../server/engine/wcs/wcs';
-import { seededRandom } from '../fft/reference'; // Mulberry32, shared with the FFT tests
+import { seededRandom } from '../../../server/engine/random/mulberry32';
 
 const fixture = JSON.parse(
   readFileSync(new URL('../../fixtures/astropy/wcs/cases.json', import.meta.url), 'utf8'),

@@ -21,7 +21,14 @@
  * grid; ∂/∂φ = g_t ⊙ s; ∂/∂ξ = A ⊙ H(g_t ⊙ s) + ξ; ∂/∂μ = Σ g_t ⊙ s; ∂/∂τ = g_t ⊙ u + α − q e^(−τ).
  * One evaluation: Hartley (1 real FFT), K ⊛ (2), Kᵀ ⋆ (2), Hartley (1): three forward + inverse FFT pairs.
  */
-import { createConvolver, createHartley2d, createRealFft2d, type Convolver, type Hartley2d } from '../fft';
+import {
+  createConvolver,
+  createHartley2d,
+  createRealFft2d,
+  type Convolver,
+  type Hartley2d,
+  type RealFft2d,
+} from '../fft';
 
 export interface NoiseModel {
   kind: 'gaussian' | 'poisson';
@@ -71,8 +78,13 @@ export class SeparationModel {
   readonly floor: number;
   evaluations = 0;
 
+  /** The one real FFT of the padded grid: the Hartley transform, the PSF convolver and the fit's other
+   *  convolvers (staged-fit.ts) all run on it (one scratch spectrum, one worker if any). */
+  readonly fft: RealFft2d;
   private readonly convolver: Convolver;
   private readonly hartley: Hartley2d;
+  /** u = exp(clip τ) of the last evaluation (image grid), reused by its gradient pass. */
+  private readonly u: Float64Array;
   // workspaces
   readonly phi: Float64Array;
   readonly s: Float64Array;
@@ -89,10 +101,12 @@ export class SeparationModel {
     this.ph = setup.paddedHeight;
     this.n = this.pw * this.ph;
     this.m = this.width * this.height;
-    this.convolver = createConvolver(this.pw, this.ph, setup.kernel);
-    this.hartley = createHartley2d(this.pw, this.ph);
+    this.fft = createRealFft2d(this.pw, this.ph);
+    this.convolver = createConvolver(this.pw, this.ph, setup.kernel, { fft: this.fft });
+    this.hartley = createHartley2d(this.pw, this.ph, { fft: this.fft });
     this.amplitude = new Float64Array(this.n);
-    this.transferPower = kernelTransferPower(setup.kernel, this.pw, this.ph);
+    this.transferPower = kernelTransferPower(setup.kernel, this.pw, this.ph, this.fft);
+    this.u = new Float64Array(this.m);
     this.phi = new Float64Array(this.n);
     this.s = new Float64Array(this.n);
     this.total = new Float64Array(this.n);
@@ -117,6 +131,7 @@ export class SeparationModel {
   dispose(): void {
     this.convolver.dispose();
     this.hartley.dispose();
+    this.fft.dispose();
   }
 
   setSpectrum(power: Float64Array): void {
@@ -172,12 +187,14 @@ export class SeparationModel {
     const { data, valid, noise, alpha, q } = this.setup;
     const s = this.diffuseField(xi, mu);
     const total = this.total;
+    const uCache = this.u;
     total.set(s);
     let prior = 0;
     for (let y = 0; y < height; y++) {
       for (let x = 0; x < width; x++) {
         const t = this.clipTau(tau[y * width + x]!);
         const u = Math.exp(t);
+        uCache[y * width + x] = u;
         total[y * pw + x] = total[y * pw + x]! + u;
         prior += alpha * t + q / u;
       }
@@ -228,7 +245,7 @@ export class SeparationModel {
             gTau[i] = 0;
             continue;
           }
-          const u = Math.exp(raw);
+          const u = uCache[i]!; // = exp(raw): raw is inside the clip range here
           gTau[i] = blocks.compact ? gt[y * pw + x]! * u + alpha - q / u : 0;
         }
       }
@@ -267,15 +284,20 @@ export class SeparationModel {
 }
 
 /** |K_k|² for every Hartley mode of the padded grid, from the real FFT of the kernel (Hermitian mirror). */
-export function kernelTransferPower(kernel: Float64Array, pw: number, ph: number): Float64Array {
-  const fft = createRealFft2d(pw, ph);
+export function kernelTransferPower(
+  kernel: Float64Array,
+  pw: number,
+  ph: number,
+  shared?: RealFft2d,
+): Float64Array {
+  const fft = shared ?? createRealFft2d(pw, ph);
   const sw = fft.spectrumWidth;
   const re = new Float64Array(sw * ph);
   const im = new Float64Array(sw * ph);
   try {
     fft.forward(kernel, re, im);
   } finally {
-    fft.dispose();
+    if (shared === undefined) fft.dispose();
   }
   const out = new Float64Array(pw * ph);
   for (let ky = 0; ky < ph; ky++) {

@@ -173,8 +173,8 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     q,
   });
   const kernelSquared = kernel.map((v) => v * v);
-  const psfSquared = createConvolver(pw, ph, kernelSquared);
-  const psfConvolver = createConvolver(pw, ph, kernel);
+  const psfSquared = createConvolver(pw, ph, kernelSquared, { fft: model.fft });
+  const psfConvolver = createConvolver(pw, ph, kernel, { fft: model.fft });
   const n = model.n;
   const k = modeWavenumbers(pw, ph);
   const kc = 1 / (3 * fwhm.major);

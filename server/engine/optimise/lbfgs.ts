@@ -126,6 +126,81 @@ function dot(a: Float64Array, b: Float64Array): number {
   return s;
 }
 
+// Small kernels of the two-loop recursion. Kept as separate functions: V8 optimises (and inlines) a short loop
+// in its own function far better than the same loop inside the long minimiseLbfgs (measured ~1.5–2× at 10⁵).
+
+/** p = −g; returns Σ s·p. */
+function negateDot(g: Float64Array, p: Float64Array, s: Float64Array): number {
+  let d = 0;
+  for (let i = 0; i < p.length; i++) {
+    const v = -g[i]!;
+    p[i] = v;
+    d += s[i]! * v;
+  }
+  return d;
+}
+
+/** p = p + a·y; returns Σ s·p (the updated p). */
+function axpyDot(p: Float64Array, a: number, y: Float64Array, s: Float64Array): number {
+  let d = 0;
+  for (let i = 0; i < p.length; i++) {
+    const v = p[i]! + a * y[i]!;
+    p[i] = v;
+    d += s[i]! * v;
+  }
+  return d;
+}
+
+/** p = (p + a·y)·γ; returns Σ y·p (the updated p). */
+function axpyScaleDot(p: Float64Array, a: number, y: Float64Array, gamma: number): number {
+  let d = 0;
+  for (let i = 0; i < p.length; i++) {
+    const v = (p[i]! + a * y[i]!) * gamma;
+    p[i] = v;
+    d += y[i]! * v;
+  }
+  return d;
+}
+
+/** out = x + α·p. */
+function stepTo(x: Float64Array, alpha: number, p: Float64Array, out: Float64Array): void {
+  for (let i = 0; i < x.length; i++) out[i] = x[i]! + alpha * p[i]!;
+}
+
+/**
+ * The correction pair s = xNew − x, y = gNew − g written into sk, yk; returns sᵀy, sᵀs, yᵀy and |gNew|² in
+ * sums[0..3].
+ */
+function correctionPair(
+  x: Float64Array,
+  g: Float64Array,
+  xNew: Float64Array,
+  gNew: Float64Array,
+  sk: Float64Array,
+  yk: Float64Array,
+  sums: Float64Array,
+): void {
+  let sy = 0;
+  let ss = 0;
+  let yy = 0;
+  let gg = 0;
+  for (let i = 0; i < x.length; i++) {
+    const gi = gNew[i]!;
+    const si = xNew[i]! - x[i]!;
+    const yi = gi - g[i]!;
+    sk[i] = si;
+    yk[i] = yi;
+    sy += si * yi;
+    ss += si * si;
+    yy += yi * yi;
+    gg += gi * gi;
+  }
+  sums[0] = sy;
+  sums[1] = ss;
+  sums[2] = yy;
+  sums[3] = gg;
+}
+
 /**
  * Minimiser of the cubic through (a, fa, da) and (b, fb, db), clamped into [lo + 0.1·w, hi − 0.1·w] of the
  * interval between a and b (eq. 3.59 of Nocedal & Wright; the bisection fallback when the cubic has no minimum).
@@ -172,12 +247,11 @@ function strongWolfeLineSearch(
   budget: number,
   state: LineSearchState,
 ): boolean {
-  const n = x.length;
   const { xNew, gNew } = state;
   state.evaluations = 0;
   const phi = (alpha: number): [number, number] => {
     o.signal?.throwIfAborted();
-    for (let i = 0; i < n; i++) xNew[i] = x[i]! + alpha * p[i]!;
+    stepTo(x, alpha, p, xNew);
     const f = fg(xNew, gNew);
     state.evaluations++;
     return [f, dot(gNew, p)];
@@ -246,13 +320,18 @@ export function minimiseLbfgs(
   const n = x0.length;
   if (n === 0) throw new Error('L-BFGS needs at least one variable');
   const m = o.memory;
-  const x = Float64Array.from(x0);
-  const g = new Float64Array(n);
+  // Workspaces, allocated once: the iterate and its gradient swap places with the line search's trial point
+  // instead of being copied.
+  let x: Float64Array = Float64Array.from(x0);
+  let g: Float64Array = new Float64Array(n);
   const p = new Float64Array(n);
   const sHist = Array.from({ length: m }, () => new Float64Array(n));
   const yHist = Array.from({ length: m }, () => new Float64Array(n));
   const rho = new Float64Array(m);
+  /** yᵀy of each stored pair (for γ), computed once when the pair is stored. */
+  const yyHist = new Float64Array(m);
   const alphaHist = new Float64Array(m);
+  const sums = new Float64Array(4);
   const state: LineSearchState = {
     xNew: new Float64Array(n),
     gNew: new Float64Array(n),
@@ -288,28 +367,41 @@ export function minimiseLbfgs(
   if (gNorm <= o.gradientTolerance) return finish('gradient-tolerance');
 
   while (iterations < o.maxIterations) {
-    // Algorithm 7.4: two-loop recursion, p = −H g.
-    for (let i = 0; i < n; i++) p[i] = -g[i]!;
-    for (let j = 0; j < stored; j++) {
-      const k = (newest - j + m) % m;
-      const a = rho[k]! * dot(sHist[k]!, p);
-      alphaHist[k] = a;
-      const yk = yHist[k]!;
-      for (let i = 0; i < n; i++) p[i] = p[i]! - a * yk[i]!;
+    // Algorithm 7.4: two-loop recursion, p = −H g. Each pass over the vectors updates p and, in the same sweep,
+    // accumulates the dot product the next step needs (same products, same summation order as separate passes),
+    // so the recursion reads every stored vector once per loop instead of twice.
+    let dg0: number;
+    if (stored === 0) {
+      dg0 = negateDot(g, p, g);
+    } else {
+      let k = newest;
+      let d = negateDot(g, p, sHist[k]!);
+      const gamma = 1 / (rho[newest]! * yyHist[newest]!);
+      for (let j = 0; j < stored; j++) {
+        const a = rho[k]! * d;
+        alphaHist[k] = a;
+        const yk = yHist[k]!;
+        if (j < stored - 1) {
+          k = (newest - j - 1 + m) % m;
+          d = axpyDot(p, -a, yk, sHist[k]!);
+        } else {
+          // last pair of the first loop: also scale by H0 = γ I and start the second loop at the same pair
+          d = axpyScaleDot(p, -a, yk, gamma);
+        }
+      }
+      for (let j = stored - 1; j >= 0; j--) {
+        const b = rho[k]! * d;
+        const a = alphaHist[k]! - b;
+        const sk = sHist[k]!;
+        if (j > 0) {
+          k = (newest - j + 1 + m) % m;
+          d = axpyDot(p, a, sk, yHist[k]!);
+        } else {
+          d = axpyDot(p, a, sk, g);
+        }
+      }
+      dg0 = d;
     }
-    if (stored > 0) {
-      const yk = yHist[newest]!;
-      const gamma = 1 / (rho[newest]! * dot(yk, yk));
-      for (let i = 0; i < n; i++) p[i] = p[i]! * gamma;
-    }
-    for (let j = stored - 1; j >= 0; j--) {
-      const k = (newest - j + m) % m;
-      const b = rho[k]! * dot(yHist[k]!, p);
-      const a = alphaHist[k]! - b;
-      const sk = sHist[k]!;
-      for (let i = 0; i < n; i++) p[i] = p[i]! + a * sk[i]!;
-    }
-    let dg0 = dot(g, p);
     if (!(dg0 < 0)) {
       // Not a descent direction (round-off in H): fall back to steepest descent.
       for (let i = 0; i < n; i++) p[i] = -g[i]!;
@@ -340,25 +432,31 @@ export function minimiseLbfgs(
     }
     restarted = false;
     iterations++;
-    // New correction pair.
+    // New correction pair, its dot products and the new gradient norm in one sweep.
     const slot = (newest + 1) % m;
     const sk = sHist[slot]!;
     const yk = yHist[slot]!;
-    for (let i = 0; i < n; i++) {
-      sk[i] = state.xNew[i]! - x[i]!;
-      yk[i] = state.gNew[i]! - g[i]!;
-    }
-    const sy = dot(sk, yk);
-    if (sy > 1e-12 * Math.sqrt(dot(sk, sk) * dot(yk, yk))) {
+    const xNew = state.xNew;
+    const gNew = state.gNew;
+    correctionPair(x, g, xNew, gNew, sk, yk, sums);
+    const sy = sums[0]!;
+    const ss = sums[1]!;
+    const yy = sums[2]!;
+    const gg = sums[3]!;
+    if (sy > 1e-12 * Math.sqrt(ss * yy)) {
       rho[slot] = 1 / sy;
+      yyHist[slot] = yy;
       newest = slot;
       stored = Math.min(stored + 1, m);
     }
     const decrease = f - state.fNew;
-    x.set(state.xNew);
-    g.set(state.gNew);
+    // accept the trial point: swap buffers (the old ones become the next line search's workspace)
+    state.xNew = x;
+    state.gNew = g;
+    x = xNew;
+    g = gNew;
     f = state.fNew;
-    gNorm = Math.sqrt(dot(g, g));
+    gNorm = Math.sqrt(gg);
     o.onProgress?.({ iteration: iterations, objective: f, gradNorm: gNorm, evaluations });
     if (gNorm <= o.gradientTolerance) return finish('gradient-tolerance');
     stall = decrease < o.absoluteDecrease ? stall + 1 : 0;

@@ -56,6 +56,18 @@ const routes: RouteRecordRaw[] = [
         meta: { title: 'Images' },
       },
       {
+        path: 'images/:id(\\d+)/runs/new',
+        name: 'run-setup',
+        component: () => import('@/pages/RunSetupPage.vue'),
+        meta: { title: 'New run' },
+      },
+      {
+        path: 'runs/:id(\\d+)',
+        name: 'run',
+        component: () => import('@/pages/RunPage.vue'),
+        meta: { title: 'Run' },
+      },
+      {
         path: 'account',
         name: 'account',
         component: () => import('@/pages/AccountPage.vue'),

@@ -51,11 +51,26 @@ export async function revokeToken(user: User, tokenId: number, ip: string | null
   });
 }
 
-/** The active account a token belongs to, or null (unknown token, disabled account). Records the use. */
+/** `lastUsedAt` is written at most this often per token, so it is accurate to about this much. */
+export const LAST_USED_RESOLUTION_MS = 60_000;
+
+/**
+ * The active account a token belongs to, or null (unknown token, disabled account). Records the use, at most
+ * once per `LAST_USED_RESOLUTION_MS`: writing on every request made concurrent clients of one token queue on
+ * its row lock. The condition is repeated in the UPDATE so that of many requests racing past the first check
+ * only one writes (PostgreSQL re-checks the WHERE after waiting for the lock).
+ */
 export async function findUserByToken(token: string): Promise<User | null> {
   if (!token.startsWith(tokenPrefix) || token.length > 200) return null;
   const row = await ApiToken.query().where('tokenHash', sha256Hex(token)).withGraphFetched('user').first();
   if (!row?.user || row.user.disabled) return null;
-  await ApiToken.query().patch({ lastUsedAt: new Date() }).where('id', row.id);
+  const now = new Date();
+  const staleBefore = new Date(now.getTime() - LAST_USED_RESOLUTION_MS);
+  if (row.lastUsedAt === null || row.lastUsedAt < staleBefore) {
+    await ApiToken.query()
+      .patch({ lastUsedAt: now })
+      .where('id', row.id)
+      .where((stale) => stale.whereNull('lastUsedAt').orWhere('lastUsedAt', '<', staleBefore));
+  }
   return row.user;
 }

@@ -6,6 +6,7 @@ import { createdTokenSchema } from '../../shared/tokens';
 import { sha256Hex } from '../../server/auth/secrets';
 import { ApiToken } from '../../server/models/api-token';
 import { User } from '../../server/models/user';
+import { LAST_USED_RESOLUTION_MS } from '../../server/tokens/tokens.service';
 import { apiError, createUser, signIn, startTestApp, type TestApp, TokenClient } from '../support/test-app';
 
 let t: TestApp;
@@ -97,6 +98,33 @@ describe('personal API tokens', () => {
         'This API token is not valid (revoked, mistyped or its account is disabled).',
       ),
     );
+  });
+  it('records a use at most once a minute, so concurrent requests do not queue on the token row', async () => {
+    const user = await createUser(t.ctx);
+    const client = await signIn(t.app, user.email);
+    const created = createdTokenSchema.parse((await client.post('/api/tokens', { name: 'busy' })).body);
+    const bearer = new TokenClient(t.app, created.token);
+    const lastUsed = async () => (await ApiToken.query().findById(created.id))?.lastUsedAt ?? null;
+
+    const before = Date.now();
+    await bearer.get('/api/auth/me').expect(200);
+    const first = await lastUsed();
+    expect(first).toBeInstanceOf(Date);
+    expect(first!.getTime()).toBeGreaterThanOrEqual(before - 1000);
+
+    // Within the minute: neither sequential nor concurrent requests write again.
+    await bearer.get('/api/auth/me').expect(200);
+    await Promise.all(Array.from({ length: 10 }, () => bearer.get('/api/auth/me').expect(200)));
+    expect((await lastUsed())?.getTime()).toBe(first!.getTime());
+
+    // Once the recorded use is older than the resolution, the next request records it again.
+    const old = new Date(Date.now() - LAST_USED_RESOLUTION_MS - 5000);
+    await ApiToken.query().patch({ lastUsedAt: old }).where('id', created.id);
+    await bearer.get('/api/auth/me').expect(200);
+    const renewed = await lastUsed();
+    expect(renewed!.getTime()).toBeGreaterThan(old.getTime() + LAST_USED_RESOLUTION_MS);
+    const listed = (await client.get('/api/tokens').expect(200)).body as { lastUsedAt: string | null }[];
+    expect(listed[0]?.lastUsedAt).toBe(renewed!.toISOString());
   });
   it('lets Bearer requests change state without CSRF and without a cookie', async () => {
     const user = await createUser(t.ctx);

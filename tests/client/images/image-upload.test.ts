@@ -1,6 +1,7 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import type { VueWrapper } from '@vue/test-utils';
 
+import { createApiClient } from '@/boot/api';
 import ImageLibraryPage from '@/pages/ImageLibraryPage.vue';
 import { makeUser } from '../support/fixtures';
 import { mountPage, settle, unmountAll } from '../support/mount';
@@ -160,5 +161,40 @@ describe('Who sees the upload control', () => {
     const input = wrapper.get('input[data-test="file-input"]');
     expect(wrapper.get(`label[for="${input.attributes('id')}"]`).text()).toBe('Image files to upload');
     expect(input.attributes('accept')).toBe('.fits,.fit,.fts,.fits.gz,.tif,.tiff,.png,.jpg,.jpeg');
+  });
+});
+
+describe('api.images.upload', () => {
+  it('fetches a fresh CSRF token and sends the file again once when the token was refused', async () => {
+    let tokens = 0;
+    mockLibraryApi({ 'GET /api/auth/csrf': () => ({ body: { token: `token-${++tokens}` } }) });
+    const client = createApiClient();
+    const seen: number[] = [];
+    const done = client.images.upload(7, radio, radio.name, {
+      name: 'LDF radio',
+      onProgress: ({ loaded }) => seen.push(loaded),
+    });
+    await settle();
+    const first = FakeXhr.instances[0]!;
+    expect(first.headers['x-csrf-token']).toBe('token-1');
+    expect(first.body?.get('name')).toBe('LDF radio');
+    first.respond(403, { error: { code: 'csrf_invalid', message: 'The form expired.' } });
+    await settle();
+    const second = FakeXhr.instances[1]!;
+    expect(second.headers['x-csrf-token']).toBe('token-2');
+    second.progress(2880, 2880);
+    second.respond(201, added);
+    await expect(done).resolves.toEqual(added);
+    expect(seen).toEqual([2880]);
+  });
+
+  it('refuses a 201 answer of the wrong shape', async () => {
+    mockLibraryApi({});
+    const done = createApiClient().images.upload(7, radio, radio.name);
+    await settle();
+    FakeXhr.instances[0]!.respond(201, { id: 'not a number' });
+    await expect(done).rejects.toThrow(
+      "The server's answer to POST /api/projects/7/images did not have the expected shape.",
+    );
   });
 });

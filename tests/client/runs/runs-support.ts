@@ -113,7 +113,15 @@ export function mockRunsApi(routes: MockRoutes, role: 'owner' | 'editor' | 'view
     const url = new URL(String(input), 'http://skysieve.test');
     if ((init.method ?? 'GET') === 'GET' && /^\/api\/images\/\d+\/pixels$/.test(url.pathname)) {
       planeCalls.push({ path: url.pathname, query: url.searchParams });
-      const view = { width, height, factor: 1, sourceWidth: width, sourceHeight: height, data };
+      const view = {
+        width,
+        height,
+        factor: 1,
+        sourceWidth: width,
+        sourceHeight: height,
+        blankPixels: 0,
+        data,
+      };
       return new Response(new Blob([encodePixelView(view).slice()]), {
         headers: { 'content-type': 'application/octet-stream' },
       });

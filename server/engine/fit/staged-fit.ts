@@ -71,6 +71,11 @@ export interface FitOptions {
   absoluteDecrease?: number;
   /** Range allowed for the fitted slope γ. @default [2, 6] */
   slopeRange?: [number, number];
+  /**
+   * FFT arithmetic of the stages before the final one (the final stage always runs in float64). 'float32' is
+   * about twice as fast per transform (fft/index.ts). @default 'float32'
+   */
+  earlyPrecision?: 'float32' | 'float64';
   onProgress?: (p: FitProgress) => void;
   signal?: AbortSignal;
 }
@@ -126,6 +131,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
   const [slopeMin, slopeMax] = options.slopeRange ?? [2, 6];
   const estimateSpectrum = options.spectrum?.estimate ?? true;
   const signal = options.signal;
+  const earlyPrecision = options.earlyPrecision ?? 'float32';
 
   const fwhm = psfFwhmPx(psf);
   const pw = paddedSize(width, fwhm.major);
@@ -404,6 +410,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     // Stage 1: diffuse only, tapered spectrum.
     // The early stages only prepare the start of the next one: looser tolerances and shorter budgets.
     const early = Math.max(1, Math.round(maxIterations / 3));
+    model.setPrecision(earlyPrecision);
     setSpectrum(kc);
     runStage('diffuse', { diffuse: true, compact: false }, 10 * absoluteDecrease, early);
     updateSpectrum(kc / 2, kc);
@@ -439,6 +446,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       runStage(`joint-${round}`, { diffuse: true, compact: true }, 5 * absoluteDecrease, early);
       updateSpectrum(kc / 2, null);
     }
+    model.setPrecision('float64');
     runStage('final', { diffuse: true, compact: true }, absoluteDecrease, maxIterations);
 
     // Components on the image grid.

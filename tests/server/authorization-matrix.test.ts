@@ -12,6 +12,7 @@ import { Invitation } from '../../server/models/invitation';
 import { Membership } from '../../server/models/membership';
 import { Project } from '../../server/models/project';
 import type { User } from '../../server/models/user';
+import { type Actor, actors, ownersOnlyStatuses, readStatuses } from '../support/authorization-actors';
 import {
   BrowserClient,
   createUser,
@@ -36,9 +37,6 @@ beforeAll(async () => {
 afterAll(async () => {
   await t.close();
 });
-
-type Actor = 'admin' | 'owner' | 'editor' | 'viewer' | 'non-member' | 'signed-out' | 'owner token';
-const actors: Actor[] = ['admin', 'owner', 'editor', 'viewer', 'non-member', 'signed-out', 'owner token'];
 
 interface Fixture {
   project: Project;
@@ -117,32 +115,17 @@ interface Action {
   verify?(f: Fixture, allowed: boolean): Promise<void>;
 }
 
-const readAll = {
-  admin: 200,
-  owner: 200,
-  editor: 200,
-  viewer: 200,
-  'non-member': 404,
-  'signed-out': 401,
-  'owner token': 200,
-};
-const ownerOnly = (ok: number) => ({
-  admin: ok,
-  owner: ok,
-  editor: 403,
-  viewer: 403,
-  'non-member': 404,
-  'signed-out': 401,
-  'owner token': ok,
-});
-
 const actions: Action[] = [
-  { name: 'view project', call: (c, f) => c.get(`/api/projects/${f.project.id}`), expected: readAll },
-  { name: 'list members', call: (c, f) => c.get(`/api/projects/${f.project.id}/members`), expected: readAll },
+  { name: 'view project', call: (c, f) => c.get(`/api/projects/${f.project.id}`), expected: readStatuses },
+  {
+    name: 'list members',
+    call: (c, f) => c.get(`/api/projects/${f.project.id}/members`),
+    expected: readStatuses,
+  },
   {
     name: 'rename project',
     call: (c, f) => c.patch(`/api/projects/${f.project.id}`, { name: 'Renamed field' }),
-    expected: ownerOnly(200),
+    expected: ownersOnlyStatuses(200),
     async verify(f, allowed) {
       expect((await Project.query().findById(f.project.id))?.name).toBe(
         allowed ? 'Renamed field' : 'Matrix field',
@@ -152,7 +135,7 @@ const actions: Action[] = [
   {
     name: 'delete project',
     call: (c, f) => c.delete(`/api/projects/${f.project.id}`, { confirmName: 'Matrix field' }),
-    expected: ownerOnly(204),
+    expected: ownersOnlyStatuses(204),
     async verify(f, allowed) {
       expect(Boolean(await Project.query().findById(f.project.id))).toBe(!allowed);
     },
@@ -161,7 +144,7 @@ const actions: Action[] = [
     name: 'add member',
     call: (c, f) =>
       c.post(`/api/projects/${f.project.id}/members`, { email: f.newcomer.email, role: 'viewer' }),
-    expected: ownerOnly(201),
+    expected: ownersOnlyStatuses(201),
     async verify(f, allowed) {
       const row = await Membership.query().where({ projectId: f.project.id, userId: f.newcomer.id }).first();
       expect(Boolean(row)).toBe(allowed);
@@ -170,7 +153,7 @@ const actions: Action[] = [
   {
     name: 'change member role',
     call: (c, f) => c.patch(`/api/projects/${f.project.id}/members/${f.target.id}`, { role: 'editor' }),
-    expected: ownerOnly(200),
+    expected: ownersOnlyStatuses(200),
     async verify(f, allowed) {
       const row = await Membership.query().where({ projectId: f.project.id, userId: f.target.id }).first();
       expect(row?.role).toBe(allowed ? 'editor' : 'viewer');
@@ -179,7 +162,7 @@ const actions: Action[] = [
   {
     name: 'remove member',
     call: (c, f) => c.delete(`/api/projects/${f.project.id}/members/${f.target.id}`),
-    expected: ownerOnly(204),
+    expected: ownersOnlyStatuses(204),
     async verify(f, allowed) {
       const row = await Membership.query().where({ projectId: f.project.id, userId: f.target.id }).first();
       expect(Boolean(row)).toBe(!allowed);
@@ -188,12 +171,12 @@ const actions: Action[] = [
   {
     name: 'list invitations',
     call: (c, f) => c.get(`/api/projects/${f.project.id}/invitations`),
-    expected: ownerOnly(200),
+    expected: ownersOnlyStatuses(200),
   },
   {
     name: 'withdraw invitation',
     call: (c, f) => c.delete(`/api/projects/${f.project.id}/invitations/${f.invitation.id}`),
-    expected: ownerOnly(204),
+    expected: ownersOnlyStatuses(204),
     async verify(f, allowed) {
       expect(Boolean(await Invitation.query().findById(f.invitation.id))).toBe(!allowed);
     },

@@ -13,6 +13,7 @@ import { Membership } from '../../../server/models/membership';
 import { Project } from '../../../server/models/project';
 import { User } from '../../../server/models/user';
 import { createToken } from '../../../server/tokens/tokens.service';
+import { type Actor, actors, editorsStatuses, readStatuses } from '../../support/authorization-actors';
 import { BrowserClient, createUser, signIn, startTestApp, type TestApp } from '../../support/test-app';
 import { binary, fitsFile, noisePlane } from './image-files';
 
@@ -29,9 +30,6 @@ beforeAll(async () => {
 afterAll(async () => {
   await t?.close();
 });
-
-type Actor = 'admin' | 'owner' | 'editor' | 'viewer' | 'non-member' | 'signed-out' | 'owner token';
-const actors: Actor[] = ['admin', 'owner', 'editor', 'viewer', 'non-member', 'signed-out', 'owner token'];
 
 interface Fixture {
   project: Project;
@@ -126,24 +124,6 @@ async function callerFor(actor: Actor, f: Fixture): Promise<Caller> {
   }
 }
 
-const readers = {
-  admin: 200,
-  owner: 200,
-  editor: 200,
-  viewer: 200,
-  'non-member': 404,
-  'signed-out': 401,
-  'owner token': 200,
-};
-const editors = (ok: number) => ({
-  ...readers,
-  admin: ok,
-  owner: ok,
-  editor: ok,
-  'owner token': ok,
-  viewer: 403,
-});
-
 interface Action {
   name: string;
   call(caller: Caller, f: Fixture): PromiseLike<request.Response>;
@@ -152,27 +132,31 @@ interface Action {
 }
 
 const actions: Action[] = [
-  { name: 'list images', call: (c, f) => c.get(`/api/projects/${f.project.id}/images`), expected: readers },
-  { name: 'image detail', call: (c, f) => c.get(`/api/images/${f.imageId}`), expected: readers },
+  {
+    name: 'list images',
+    call: (c, f) => c.get(`/api/projects/${f.project.id}/images`),
+    expected: readStatuses,
+  },
+  { name: 'image detail', call: (c, f) => c.get(`/api/images/${f.imageId}`), expected: readStatuses },
   {
     name: 'thumbnail',
     call: (c, f) => c.get(`/api/images/${f.imageId}/thumbnail`).buffer(true).parse(binary),
-    expected: readers,
+    expected: readStatuses,
   },
   {
     name: 'original',
     call: (c, f) => c.get(`/api/images/${f.imageId}/original`).buffer(true).parse(binary),
-    expected: readers,
+    expected: readStatuses,
   },
   {
     name: 'pixel view',
     call: (c, f) => c.get(`/api/images/${f.imageId}/pixels?maxSize=16`).buffer(true).parse(binary),
-    expected: readers,
+    expected: readStatuses,
   },
   {
     name: 'rename image',
     call: (c, f) => c.send('patch', `/api/images/${f.imageId}`, { name: 'Renamed' }),
-    expected: editors(200),
+    expected: editorsStatuses(200),
     async verify(f, allowed) {
       expect((await Image.query().findById(f.imageId))?.name).toBe(allowed ? 'Renamed' : 'matrix.fits');
     },
@@ -180,7 +164,7 @@ const actions: Action[] = [
   {
     name: 'delete image',
     call: (c, f) => c.send('delete', `/api/images/${f.imageId}`),
-    expected: editors(204),
+    expected: editorsStatuses(204),
     async verify(f, allowed) {
       expect(Boolean(await Image.query().findById(f.imageId))).toBe(!allowed);
       // The owner uploaded it: the owner's counter is released only when the image is gone.
@@ -192,7 +176,7 @@ const actions: Action[] = [
     name: 'upload image',
     call: (c, f) =>
       c.upload(`/api/projects/${f.project.id}/images`, fitsFile(noisePlane(32, 24, seed++)), 'new.fits'),
-    expected: editors(201),
+    expected: editorsStatuses(201),
     async verify(f, allowed) {
       expect(await Image.query().where('projectId', f.project.id).resultSize()).toBe(allowed ? 2 : 1);
     },

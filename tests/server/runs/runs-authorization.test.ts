@@ -12,6 +12,7 @@ import { Run } from '../../../server/models/run';
 import type { User } from '../../../server/models/user';
 import { stopRunQueue } from '../../../server/queue/run-queue';
 import { createToken } from '../../../server/tokens/tokens.service';
+import { type Actor, actors, editorsStatuses, readStatuses } from '../../support/authorization-actors';
 import {
   BrowserClient,
   createUser,
@@ -22,8 +23,6 @@ import {
 } from '../../support/test-app';
 import { fastSettings, type RunFixture, runFixture } from './run-support';
 
-type Actor = 'admin' | 'owner' | 'editor' | 'viewer' | 'non-member' | 'signed-out' | 'owner token';
-const actors: Actor[] = ['admin', 'owner', 'editor', 'viewer', 'non-member', 'signed-out', 'owner token'];
 type Caller = Pick<BrowserClient, 'get' | 'post' | 'delete'>;
 
 let t: TestApp;
@@ -93,25 +92,6 @@ async function insertFinishedRun(): Promise<number> {
   return run.id;
 }
 
-const read = {
-  admin: 200,
-  owner: 200,
-  editor: 200,
-  viewer: 200,
-  'non-member': 404,
-  'signed-out': 401,
-  'owner token': 200,
-};
-const write = (ok: number) => ({
-  admin: ok,
-  owner: ok,
-  editor: ok,
-  viewer: 403,
-  'non-member': 404,
-  'signed-out': 401,
-  'owner token': ok,
-});
-
 interface Action {
   name: string;
   call(caller: Caller): Promise<{ status: number; body: { error?: { message: string } } }>;
@@ -127,33 +107,33 @@ const actions: Action[] = [
   {
     name: 'start a run',
     call: async (c) => c.post(`/api/images/${f.imageId}/runs`, { settings: fastSettings }),
-    expected: write(202),
+    expected: editorsStatuses(202),
   },
   {
     name: 'list runs of the image',
     call: async (c) => c.get(`/api/images/${f.imageId}/runs`),
-    expected: read,
+    expected: readStatuses,
   },
-  { name: 'read a run', call: async (c) => c.get(`/api/runs/${finishedRunId}`), expected: read },
+  { name: 'read a run', call: async (c) => c.get(`/api/runs/${finishedRunId}`), expected: readStatuses },
   {
     name: 'read its sources',
     call: async (c) => c.get(`/api/runs/${finishedRunId}/sources`),
-    expected: read,
+    expected: readStatuses,
   },
   {
     name: 'download its sources',
     call: async (c) => c.get(`/api/runs/${finishedRunId}/sources?format=csv`),
-    expected: read,
+    expected: readStatuses,
   },
   {
     name: 'read a component',
     call: async (c) => c.get(`/api/runs/${finishedRunId}/components/model?maxSize=16`),
-    expected: read,
+    expected: readStatuses,
   },
   {
     name: 'cut out pixels',
     call: async (c) => c.get(`/api/runs/${finishedRunId}/cutout?x=10&y=12&size=5`),
-    expected: read,
+    expected: readStatuses,
   },
   {
     name: 'cancel a queued run',
@@ -173,7 +153,7 @@ const actions: Action[] = [
       queuedRunId = run.id;
     },
     call: async (c) => c.post(`/api/runs/${queuedRunId}/cancel`),
-    expected: write(200),
+    expected: editorsStatuses(200),
   },
   {
     name: 'delete a finished run',
@@ -181,7 +161,7 @@ const actions: Action[] = [
       queuedRunId = await insertFinishedRun();
     },
     call: async (c) => c.delete(`/api/runs/${queuedRunId}`),
-    expected: write(204),
+    expected: editorsStatuses(204),
   },
 ];
 

@@ -6,7 +6,7 @@ import { estimateRunSeconds } from '@/stores/runs';
 import { apiError } from '../support/api-mock';
 import { makeUser } from '../support/fixtures';
 import { mountPage, pageText, settle, unmountAll } from '../support/mount';
-import { makeImageDetail, mockRunsApi } from './runs-support';
+import { makeFinishedRun, makeImageDetail, mockRunsApi } from './runs-support';
 
 afterEach(unmountAll);
 
@@ -21,14 +21,18 @@ function schemaMessage(settings: unknown): string {
 }
 
 async function mountSetup(routes = {}) {
-  const api = mockRunsApi({ 'GET /api/images/:id': { body: image }, ...routes });
+  const api = mockRunsApi({
+    'GET /api/images/:id': { body: image },
+    'GET /api/images/:id/runs': { body: { runs: [makeFinishedRun({ id: 40, sourceCount: 17 })] } },
+    ...routes,
+  });
   const mounted = await mountPage(RunSetupPage, { path: '/images/11/runs/new', user: owner });
   return { api, ...mounted };
 }
 
 describe('RunSetupPage', () => {
   it('shows every preset with its description from the shared schema, and a marked run-time estimate', async () => {
-    const { api } = await mountSetup();
+    const { api, wrapper } = await mountSetup();
     const text = pageText();
     expect(separationPresetSchema.options.length).toBe(3);
     for (const name of separationPresetSchema.options) expect(text).toContain(name.replace(/-/g, ' '));
@@ -42,6 +46,8 @@ describe('RunSetupPage', () => {
     expect(text).toContain(`Estimated run time: ${expected}`);
     expect(text).toContain('rough estimate');
     expect(api.callsTo('GET /api/images/:id')[0]?.params.id).toBe('11');
+    expect(wrapper.get('[data-test="earlier-runs"]').text()).toContain('Run 40');
+    expect(wrapper.get('[data-test="earlier-runs"]').text()).toContain('succeeded · 17 sources');
     api.expectNoUnexpectedCalls();
   });
 
@@ -116,7 +122,10 @@ describe('RunSetupPage', () => {
   });
 
   it('shows an error state when the image cannot be read', async () => {
-    mockRunsApi({ 'GET /api/images/:id': apiError(404, 'not_found', 'Image not found.') });
+    mockRunsApi({
+      'GET /api/images/:id': apiError(404, 'not_found', 'Image not found.'),
+      'GET /api/images/:id/runs': apiError(404, 'not_found', 'Image not found.'),
+    });
     await mountPage(RunSetupPage, { path: '/images/11/runs/new', user: owner });
     expect(pageText()).toContain('Image not found.');
   });

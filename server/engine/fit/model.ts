@@ -181,11 +181,7 @@ export class SeparationModel {
   diffuseField(xi: Float64Array, mu: number): Float64Array {
     this.phiHat(xi, this.work);
     this.hartley.transform(this.work, this.phi);
-    for (let i = 0; i < this.n; i++) {
-      const p = this.phi[i]! + mu;
-      this.phi[i] = p;
-      this.s[i] = Math.exp(Math.min(p, 700));
-    }
+    shiftExp(this.phi, mu, this.s);
     return this.s;
   }
 
@@ -227,7 +223,7 @@ export class SeparationModel {
         prior += alpha * t + q / u;
       }
     }
-    for (let i = 0; i < n; i++) prior += 0.5 * xi[i]! * xi[i]!;
+    prior = addHalfSquares(prior, xi);
     const model = this.modelPadded;
     this.convolver.apply(total, model);
     // likelihood and its derivative r in the model, on the padded grid (0 outside valid image pixels)
@@ -279,13 +275,9 @@ export class SeparationModel {
       }
     }
     if (gXi && blocks.diffuse) {
-      for (let i = 0; i < n; i++) {
-        const v = gt[i]! * s[i]!;
-        r[i] = v;
-        gMu += v;
-      }
+      gMu = productInto(gt, s, r);
       this.hartley.transform(r, gXi);
-      for (let i = 0; i < n; i++) gXi[i] = this.amplitude[i]! * gXi[i]! + xi[i]!;
+      amplitudeGradient(this.amplitude, gXi, xi);
     } else if (gXi) {
       gXi.fill(0);
     }
@@ -308,6 +300,40 @@ export class SeparationModel {
       }
     }
     return out;
+  }
+}
+
+// Elementwise passes of the objective, each in its own small function (V8 optimises them better than inside
+// the long evaluate method); the arithmetic and its order are those of the plain loops.
+
+/** acc + Σ ½ ξ². */
+function addHalfSquares(acc: number, xi: Float64Array): number {
+  for (let i = 0; i < xi.length; i++) acc += 0.5 * xi[i]! * xi[i]!;
+  return acc;
+}
+
+/** out = a ⊙ b; returns Σ a ⊙ b. */
+function productInto(a: Float64Array, b: Float64Array, out: Float64Array): number {
+  let sum = 0;
+  for (let i = 0; i < out.length; i++) {
+    const v = a[i]! * b[i]!;
+    out[i] = v;
+    sum += v;
+  }
+  return sum;
+}
+
+/** g = A ⊙ g + ξ. */
+function amplitudeGradient(amplitude: Float64Array, g: Float64Array, xi: Float64Array): void {
+  for (let i = 0; i < g.length; i++) g[i] = amplitude[i]! * g[i]! + xi[i]!;
+}
+
+/** φ += μ; s = exp(min(φ, 700)). */
+function shiftExp(phi: Float64Array, mu: number, s: Float64Array): void {
+  for (let i = 0; i < phi.length; i++) {
+    const p = phi[i]! + mu;
+    phi[i] = p;
+    s[i] = Math.exp(Math.min(p, 700));
   }
 }
 

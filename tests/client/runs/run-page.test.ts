@@ -162,6 +162,54 @@ describe('RunPage', () => {
     expect(selected[0]!.text()).toContain('20.50');
   });
 
+  it('draws the stored convergence of a finished run across its stages', async () => {
+    const diagnostics = {
+      residualHistogram: { edges: [-1, 0, 1], counts: [5, 5], mean: 0, std: 1, count: 10 },
+      spectrum: {
+        k: [1],
+        power: [1],
+        mapPower: [1],
+        modes: [4],
+        fitted: [1],
+        amplitude: 1,
+        slope: 3,
+        turnover: 0.1,
+        estimated: true,
+      },
+      convergence: [
+        { stage: 'diffuse', iteration: 1, objective: 500, gradNorm: 3 },
+        { stage: 'diffuse', iteration: 2, objective: 400, gradNorm: 2 },
+        { stage: 'final', iteration: 1, objective: 390, gradNorm: 1 },
+      ],
+      converged: true,
+      iterations: 3,
+      evaluations: 5,
+      noise: { sigma: 0.0001, source: 'estimated' },
+      psfFwhmPx: { major: 4, minor: 3 },
+      beamAreaPx: 13.6,
+      compactPrior: { alpha: 1.5, q: 0.05, pedestal: 0.03, fluxErrorScale: 1 },
+    };
+    mockRunsApi({
+      'GET /api/runs/:id': { body: makeFinishedRun({ diagnostics }) },
+      'GET /api/images/:id': { body: image },
+      'GET /api/runs/:id/sources': sourcePage,
+    });
+    const { wrapper } = await mountPage(RunPage, { path: '/runs/42', user: owner });
+    await settle();
+    expect(wrapper.get('[data-test="convergence"]').text()).toContain('3 iterations, converged');
+    const lastCall = plotly.react.mock.calls.at(-1) as unknown as [
+      HTMLElement,
+      { x: number[]; y: number[] }[],
+    ];
+    expect(lastCall[1][0]!.x).toEqual([1, 2, 3]);
+    expect(lastCall[1][0]!.y).toEqual([500, 400, 390]);
+    // Markers take the PSF size the fit used.
+    expect(wrapper.getComponent(SkyViewer).props('sources')?.[0]).toMatchObject({
+      majorPixels: 4,
+      minorPixels: 3,
+    });
+  });
+
   it('shows the server message when the run cannot be read', async () => {
     mockRunsApi({ 'GET /api/runs/:id': apiError(404, 'not_found', 'Run not found.') });
     await mountPage(RunPage, { path: '/runs/42', user: owner });

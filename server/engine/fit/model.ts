@@ -207,7 +207,7 @@ export class SeparationModel {
     gTau: Float64Array | null,
   ): [number, number] {
     this.evaluations++;
-    const { width, height, pw, n } = this;
+    const { width, height, pw } = this;
     const { data, valid, noise, alpha, q } = this.setup;
     const s = this.diffuseField(xi, mu);
     const total = this.total;

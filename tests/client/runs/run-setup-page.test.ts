@@ -68,6 +68,9 @@ describe('RunSetupPage', () => {
     expect(pageText()).toContain(schemaMessage({ threshold: 0 }));
     expect(wrapper.get('[data-test="launch"]').attributes('disabled')).toBeDefined();
 
+    await wrapper.get('input[data-test="threshold"]').setValue('five');
+    await settle();
+    expect(pageText()).toContain('Enter a number, or leave the field empty.');
     await wrapper.get('input[data-test="threshold"]').setValue('6');
     const given = wrapper
       .findAll('[data-test="psf-source"] .q-radio')

@@ -28,14 +28,19 @@ export interface RunFixture {
 }
 
 /** 64 × 64 pixels, PSF FWHM 3 px, σ = 1e-4 Jy/beam, 5 sources between 50σ-ish and 200σ-ish flux. */
-export function smallSky(seed = 11): SimulatedSky {
+export function smallSky(seed = 11, size = 64): SimulatedSky {
   return simulateSky({
-    width: 64,
-    height: 64,
+    width: size,
+    height: size,
     seed,
     psf: { fwhmMajorPx: 3, fwhmMinorPx: 3, paDeg: 0 },
     diffuse: { level: 2e-4, logStd: 0.4, slope: 3.5 },
-    sources: { count: 5, minFlux: 1e-2, maxFlux: 3e-2, minSeparationPx: 10 },
+    sources: {
+      count: Math.round((5 * size * size) / 4096),
+      minFlux: 1e-2,
+      maxFlux: 3e-2,
+      minSeparationPx: 10,
+    },
     noise: { kind: 'gaussian', sigma: 1e-4 },
     wcs: { projection: 'SIN', raDeg: 283.75, decDeg: 38.6, pixelArcsec: 1.5 },
     unit: 'Jy/beam',

@@ -12,11 +12,11 @@ import { afterAll, beforeAll, expect, it } from 'vitest';
 import { User } from '../../../server/models/user';
 import { configureRunQueue, stopRunQueue } from '../../../server/queue/run-queue';
 import { type BrowserClient, signIn, startTestApp, type TestApp } from '../../support/test-app';
-import { fastSettings, type RunFixture, runFixture, waitForRun } from './run-support';
+import { fastSettings, type RunFixture, runFixture, smallSky, waitForRun } from './run-support';
 
 const root = path.resolve(import.meta.dirname, '../../..');
 // Long enough for one fit on a busy 2-core machine, short enough for the test.
-const EXPIRE_SECONDS = 15;
+const EXPIRE_SECONDS = 30;
 
 let t: TestApp;
 let f: RunFixture;
@@ -54,7 +54,8 @@ function killGroup(child: ChildProcess, signal: NodeJS.Signals): void {
 beforeAll(async () => {
   t = await startTestApp();
   configureRunQueue(t.ctx, { expireInSeconds: EXPIRE_SECONDS, retryDelaySeconds: 0 });
-  f = await runFixture(t.ctx);
+  // 160² rather than the usual 64²: the fit must last long enough (seconds) to be caught running and killed.
+  f = await runFixture(t.ctx, smallSky(11, 160));
   owner = await signIn(t.app, f.owner.email);
 }, 60_000);
 

@@ -33,7 +33,7 @@ import {
   startTestApp,
   type TestApp,
 } from '../../support/test-app';
-import { fastSettings, type RunFixture, runFixture, smallSky, waitForRun } from './run-support';
+import { fastSettings, type RunFixture, runFixture, smallSky, storeImage, waitForRun } from './run-support';
 
 let t: TestApp;
 let worker: RunWorker;
@@ -384,7 +384,9 @@ describe('cancel, events and failure', () => {
   }, 90_000);
 
   it('streams status and progress as Server-Sent Events and closes at the end', async () => {
-    const started = await owner.post(`/api/images/${f.imageId}/runs`, { settings: fastSettings });
+    // 160² so that the fit lasts longer than the stream's 0.5 s database poll and progress is seen.
+    const imageId = await storeImage(t.ctx, f.project.id, f.owner, smallSky(12, 160), 'lyra-sse.fits');
+    const started = await owner.post(`/api/images/${imageId}/runs`, { settings: fastSettings });
     const response = await owner.agent
       .get(`/api/runs/${started.body.id}/events`)
       .buffer(true)

@@ -336,9 +336,14 @@ describe('cancel, events and failure', () => {
     absoluteDecrease: 1e-9,
     preset: 'deep-search',
   };
+  // The slow fits run on a 192² image: on 64² even this budget ends within a second on a fast machine.
+  let slowImageId: number;
+  beforeAll(async () => {
+    slowImageId = await storeImage(t.ctx, f.project.id, f.owner, smallSky(13, 192), 'lyra-slow.fits');
+  });
 
   it('cancels a queued run at once and a running one through its worker', async () => {
-    const slow = await editor.post(`/api/images/${f.imageId}/runs`, { settings: slowSettings });
+    const slow = await editor.post(`/api/images/${slowImageId}/runs`, { settings: slowSettings });
     expect(slow.status).toBe(202);
     await waitForRun(get, slow.body.id, (body) => body.status === 'running' && body.progress !== null);
     // The worker (concurrency 1) is busy: this one stays queued.
@@ -431,7 +436,7 @@ describe('cancel, events and failure', () => {
 
   it('stops a run at its time limit and stores why', async () => {
     // Straight into the table (no job): only this direct call of the job handler runs it.
-    const run = await insertQueuedRun(slowSettings);
+    const run = await insertQueuedRun(slowSettings, slowImageId);
     await processRunJob(t.ctx, run, { runTimeoutMs: 1500, pollMs: 100 });
     const stored = (await get(`/api/runs/${run}`)).body as RunDetail;
     expect(stored.status).toBe('failed');
@@ -442,7 +447,7 @@ describe('cancel, events and failure', () => {
   }, 60_000);
 
   it('gives a run back to the queue when its worker shuts down', async () => {
-    const run = await insertQueuedRun(slowSettings);
+    const run = await insertQueuedRun(slowSettings, slowImageId);
     const shutdown = new AbortController();
     const job = processRunJob(t.ctx, run, { runTimeoutMs: 60_000, shutdown: shutdown.signal, pollMs: 100 });
     await waitForRun(get, run, (body) => body.status === 'running');
@@ -527,9 +532,9 @@ describe('the scripted journey (issue 5, "done when")', () => {
 
 // ---- helpers ----
 
-async function insertQueuedRun(settings: object): Promise<number> {
+async function insertQueuedRun(settings: object, imageId = f.imageId): Promise<number> {
   const run = await Run.query().insertAndFetch({
-    imageId: f.imageId,
+    imageId,
     projectId: f.project.id,
     createdBy: f.owner.id,
     status: 'queued',

@@ -7,7 +7,7 @@
  */
 import type { Knex } from 'knex';
 
-import { COMPONENT_NAMES, type RunProvenance } from '../../shared/runs';
+import { COMPONENT_NAMES, type RunProgress, type RunProvenance } from '../../shared/runs';
 import { float32ToBytes } from '../models/run-component';
 import { RunSource } from '../models/run-source';
 import { chargeQuota } from '../storage/quota';
@@ -21,6 +21,26 @@ export function resultBytes(result: Pick<FitThreadResult, 'planes' | 'catalogue'
   let bytes = 0;
   for (const name of COMPONENT_NAMES) bytes += result.planes[name].byteLength;
   return bytes + result.catalogue.length * SOURCE_ROW_BYTES;
+}
+
+/** The progress a finished run ends on when none was written while it ran (null without a trace). */
+function finalProgress(result: FitThreadResult): RunProgress | null {
+  const last = result.diagnostics.convergence.at(-1);
+  if (!last) return null;
+  return {
+    phase: 'catalogue',
+    stage: last.stage,
+    iteration: last.iteration,
+    objective: last.objective,
+    gradNorm: last.gradNorm,
+    fraction: 1,
+  };
+}
+
+/** finalProgress as a JSON parameter; SQL NULL (not JSON null) when there is none. */
+function finalProgressJson(result: FitThreadResult): string | null {
+  const progress = finalProgress(result);
+  return progress ? JSON.stringify(progress) : null;
 }
 
 export type StoreOutcome = 'stored' | 'already-finished' | 'cancelled';
@@ -70,9 +90,11 @@ export async function storeRunResults(
         diagnostics: JSON.stringify(result.diagnostics),
         resultBytes: bytes,
         chargedUserId: chargeTo,
-        progress: trx.raw(
-          "case when progress is null then null else jsonb_set(progress, '{fraction}', '1') end",
-        ),
+        // A fit shorter than the progress write interval may have left no progress at all: end on the
+        // trace's last point then, so a finished run always shows its final iteration and objective.
+        progress: trx.raw("coalesce(jsonb_set(progress, '{fraction}', '1'), ?::jsonb)", [
+          finalProgressJson(result),
+        ]),
         errorMessage: null,
         finishedAt: trx.fn.now(),
         updatedAt: trx.fn.now(),

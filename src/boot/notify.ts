@@ -44,3 +44,14 @@ export function dismissErrors(): void {
 export function notifySuccess(message: string): void {
   Notify.create({ type: 'positive', message, position: 'top', timeout: 2500 });
 }
+
+/** Awaits an action for a store: true when it worked, false after showing its failure. */
+export async function succeeded(action: Promise<unknown>): Promise<boolean> {
+  try {
+    await action;
+    return true;
+  } catch (error) {
+    notifyError(error);
+    return false;
+  }
+}

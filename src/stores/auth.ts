@@ -12,7 +12,7 @@ import type {
 } from '@shared/auth';
 import type { PublicConfig } from '@shared/health';
 import { api, ApiError } from '@/boot/api';
-import { dismissErrors, notifyError } from '@/boot/notify';
+import { dismissErrors, notifyError, succeeded } from '@/boot/notify';
 
 export const useAuthStore = defineStore('auth', () => {
   const user = ref<User | null>(null);
@@ -104,33 +104,15 @@ export const useAuthStore = defineStore('auth', () => {
   }
 
   async function changePassword(body: PasswordChangeRequest): Promise<boolean> {
-    try {
-      await api.auth.changePassword(body);
-      return true;
-    } catch (error) {
-      notifyError(error);
-      return false;
-    }
+    return succeeded(api.auth.changePassword(body));
   }
 
   async function requestReset(email: string): Promise<boolean> {
-    try {
-      await api.auth.requestReset(email);
-      return true;
-    } catch (error) {
-      notifyError(error);
-      return false;
-    }
+    return succeeded(api.auth.requestReset(email));
   }
 
   async function confirmReset(token: string, password: string): Promise<boolean> {
-    try {
-      await api.auth.confirmReset({ token, password });
-      return true;
-    } catch (error) {
-      notifyError(error);
-      return false;
-    }
+    return succeeded(api.auth.confirmReset({ token, password }));
   }
 
   /** What an invitation link offers, for the sign-up page; null (with a notice) when it is unknown or expired. */

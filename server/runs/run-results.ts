@@ -23,11 +23,14 @@ export function resultBytes(result: Pick<FitThreadResult, 'planes' | 'catalogue'
   return bytes + result.catalogue.length * SOURCE_ROW_BYTES;
 }
 
-/** The progress a finished run ends on when none was written while it ran (null without a trace). */
-function finalProgress(result: FitThreadResult): RunProgress | null {
+/**
+ * The progress a finished run ends on when none was written while it ran, as a JSON parameter: SQL NULL (not
+ * JSON null) when the fit left no trace.
+ */
+function finalProgressJson(result: FitThreadResult): string | null {
   const last = result.diagnostics.convergence.at(-1);
   if (!last) return null;
-  return {
+  const progress: RunProgress = {
     phase: 'catalogue',
     stage: last.stage,
     iteration: last.iteration,
@@ -35,12 +38,7 @@ function finalProgress(result: FitThreadResult): RunProgress | null {
     gradNorm: last.gradNorm,
     fraction: 1,
   };
-}
-
-/** finalProgress as a JSON parameter; SQL NULL (not JSON null) when there is none. */
-function finalProgressJson(result: FitThreadResult): string | null {
-  const progress = finalProgress(result);
-  return progress ? JSON.stringify(progress) : null;
+  return JSON.stringify(progress);
 }
 
 export type StoreOutcome = 'stored' | 'already-finished' | 'cancelled';

@@ -42,6 +42,10 @@ export type User = z.infer<typeof userSchema>;
 export const userResponseSchema = z.object({ user: userSchema });
 export type UserResponse = z.infer<typeof userResponseSchema>;
 
+/** GET /api/auth/session: who is signed in, or null; answers 200 either way (a probe for the client's start). */
+export const sessionResponseSchema = z.object({ user: userSchema.nullable() });
+export type SessionResponse = z.infer<typeof sessionResponseSchema>;
+
 export const csrfTokenResponseSchema = z.object({ token: z.string() });
 export type CsrfTokenResponse = z.infer<typeof csrfTokenResponseSchema>;
 

@@ -54,6 +54,9 @@ export function authController(ctx: AppContext, authentication: Authentication) 
       res.clearCookie(sessionCookieName, { path: '/' });
       res.status(204).end();
     },
+    session(req: Request, res: Response) {
+      res.json({ user: req.user ? req.user.toDto() : null });
+    },
     me(req: Request, res: Response) {
       res.json({ user: currentUser(req).toDto() });
     },

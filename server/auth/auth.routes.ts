@@ -7,6 +7,7 @@ import {
   passwordChangeRequestSchema,
   passwordResetConfirmSchema,
   passwordResetRequestSchema,
+  sessionResponseSchema,
   signupRequestSchema,
   updateMeRequestSchema,
   userResponseSchema,
@@ -61,6 +62,15 @@ export function authRoutes(ctx: AppContext, authentication: Authentication): Any
       access: 'public',
       responses: { 204: { description: 'Signed out' } },
       handler: controller.logout,
+    }),
+    defineRoute({
+      method: 'get',
+      path: '/api/auth/session',
+      summary: 'Who is signed in: the account, or null when nobody is (200 either way, unlike /api/auth/me)',
+      tag,
+      access: 'public',
+      responses: { 200: { description: 'Account or null', schema: sessionResponseSchema } },
+      handler: controller.session,
     }),
     defineRoute({
       method: 'get',

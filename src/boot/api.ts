@@ -10,6 +10,7 @@ import { healthSchema, publicConfigSchema } from '@shared/health';
 import {
   csrfTokenResponseSchema,
   invitationPreviewSchema,
+  sessionResponseSchema,
   userResponseSchema,
   type LoginRequest,
   type PasswordChangeRequest,
@@ -373,6 +374,7 @@ export function createApiClient(options: ApiClientOptions = {}) {
       health: () => request('GET', '/api/health', { schema: healthSchema }),
     },
     auth: {
+      session: () => request('GET', '/api/auth/session', { schema: sessionResponseSchema }),
       me: () => request('GET', '/api/auth/me', { schema: userResponseSchema }),
       login: (body: LoginRequest) => request('POST', '/api/auth/login', { body, schema: userResponseSchema }),
       signup: (body: SignupRequest) =>

@@ -23,10 +23,13 @@ export const useAuthStore = defineStore('auth', () => {
   const signedIn = computed(() => user.value !== null);
   const isAdmin = computed(() => user.value?.role === 'admin');
 
-  /** Ask the server who is signed in; a 401 simply means nobody. */
+  /**
+   * Ask the server who is signed in. The session probe answers 200 with `user: null` when nobody is, so a
+   * signed-out start logs no failed request in the browser; a 401 (a rejected API token) also means nobody.
+   */
   async function fetchMe(): Promise<User | null> {
     try {
-      user.value = (await api.auth.me()).user;
+      user.value = (await api.auth.session()).user;
     } catch (error) {
       user.value = null;
       if (!(error instanceof ApiError && error.status === 401)) notifyError(error);

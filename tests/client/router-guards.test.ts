@@ -7,7 +7,7 @@ import { createMemoryHistory } from 'vue-router';
 import { createAppRouter } from '@/router';
 import { safeRedirect } from '@/router/redirect';
 import { useAuthStore } from '@/stores/auth';
-import { apiError, mockApi } from './support/api-mock';
+import { mockApi } from './support/api-mock';
 import { makeUser } from './support/fixtures';
 
 // The guard reports refusals through the notify helper, which needs Quasar's Notify installed.
@@ -19,18 +19,18 @@ afterEach(() => setActivePinia(undefined));
 describe('route guards', () => {
   it('sends a signed-out visitor to sign-in and remembers where they were going', async () => {
     setActivePinia(createPinia());
-    const api = mockApi({ 'GET /api/auth/me': apiError(401, 'unauthenticated', 'Sign in first.') });
+    const api = mockApi({ 'GET /api/auth/session': { body: { user: null } } });
     const router = createAppRouter(createMemoryHistory());
     await router.push('/projects/7');
     expect(router.currentRoute.value.name).toBe('sign-in');
     expect(router.currentRoute.value.query.redirect).toBe('/projects/7');
-    expect(api.callsTo('GET /api/auth/me')).toHaveLength(1);
+    expect(api.callsTo('GET /api/auth/session')).toHaveLength(1);
     api.expectNoUnexpectedCalls();
   });
 
   it('keeps members out of the admin area', async () => {
     setActivePinia(createPinia());
-    mockApi({ 'GET /api/auth/me': { body: { user: makeUser({ role: 'member' }) } } });
+    mockApi({ 'GET /api/auth/session': { body: { user: makeUser({ role: 'member' }) } } });
     const router = createAppRouter(createMemoryHistory());
     await router.push('/admin/users');
     expect(router.currentRoute.value.name).toBe('projects');
@@ -39,13 +39,13 @@ describe('route guards', () => {
 
   it('lets administrators into the admin area and asks the server only once who is signed in', async () => {
     setActivePinia(createPinia());
-    const api = mockApi({ 'GET /api/auth/me': { body: { user: makeUser({ role: 'admin' }) } } });
+    const api = mockApi({ 'GET /api/auth/session': { body: { user: makeUser({ role: 'admin' }) } } });
     const router = createAppRouter(createMemoryHistory());
     await router.push('/admin/audit');
     expect(router.currentRoute.value.name).toBe('admin-audit');
     await router.push('/admin/mail/3');
     expect(router.currentRoute.value.params.mailId).toBe('3');
-    expect(api.callsTo('GET /api/auth/me')).toHaveLength(1);
+    expect(api.callsTo('GET /api/auth/session')).toHaveLength(1);
   });
 
   it('sends a signed-in user away from the sign-in page', async () => {

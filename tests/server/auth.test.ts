@@ -2,7 +2,7 @@
 import request from 'supertest';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
-import { userResponseSchema } from '../../shared/auth';
+import { sessionResponseSchema, userResponseSchema } from '../../shared/auth';
 import { AuditEvent } from '../../server/models/audit-event';
 import { User } from '../../server/models/user';
 import {
@@ -197,6 +197,24 @@ describe('sign-in and sign-out', () => {
   it('/me answers 401 without a session', async () => {
     const response = await request(t.app).get('/api/auth/me').expect(401);
     expect(response.body.error.code).toBe('unauthenticated');
+  });
+  it('the session probe answers 200 with user null when signed out, the account when signed in', async () => {
+    const nobody = await request(t.app).get('/api/auth/session').expect(200);
+    expect(nobody.body).toEqual({ user: null });
+    const user = await createUser(t.ctx);
+    const client = await signIn(t.app, user.email);
+    const signedIn = await client.get('/api/auth/session').expect(200);
+    expect(sessionResponseSchema.parse(signedIn.body).user?.id).toBe(user.id);
+    expect((await client.post('/api/auth/logout')).status).toBe(204);
+    expect((await client.get('/api/auth/session').expect(200)).body).toEqual({ user: null });
+    // Only the probe changed: /me still refuses a signed-out caller.
+    await client.get('/api/auth/me').expect(401);
+  });
+  it('the session probe shows nobody for a session whose account was disabled meanwhile', async () => {
+    const user = await createUser(t.ctx);
+    const client = await signIn(t.app, user.email);
+    await User.query().patch({ disabled: true }).where('id', user.id);
+    expect((await client.get('/api/auth/session').expect(200)).body).toEqual({ user: null });
   });
 });
 

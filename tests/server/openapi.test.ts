@@ -29,6 +29,7 @@ const contract = [
   'post /api/auth/signup',
   'post /api/auth/login',
   'post /api/auth/logout',
+  'get /api/auth/session',
   'get /api/auth/me',
   'patch /api/auth/me',
   'post /api/auth/password',

@@ -18,6 +18,17 @@ function sendDownload(res: Response, download: runs.Download): void {
   res.send(download.body);
 }
 
+/** A float32 plane view: the bytes, with its size and block factor in the X-Plane-* / X-Source-* headers. */
+export function sendPlaneView(res: Response, view: runs.PlaneView): void {
+  res.setHeader('Content-Type', 'application/octet-stream');
+  res.setHeader('X-Plane-Width', String(view.width));
+  res.setHeader('X-Plane-Height', String(view.height));
+  res.setHeader('X-Plane-Factor', String(view.factor));
+  res.setHeader('X-Source-Width', String(view.sourceWidth));
+  res.setHeader('X-Source-Height', String(view.sourceHeight));
+  res.send(view.body);
+}
+
 export function runsController(ctx: AppContext, eventOptions: RunEventOptions = {}) {
   return {
     async create(req: ApiRequest<CreateRunOutput, IdParams>, res: Response) {
@@ -58,14 +69,7 @@ export function runsController(ctx: AppContext, eventOptions: RunEventOptions = 
       res.setHeader('Cache-Control', 'private, max-age=0, must-revalidate');
       if (run.status === 'succeeded' && req.headers['if-none-match'] === etag)
         return void res.status(304).end();
-      const view = await runs.componentView(ctx.knex, run, name, req.query.maxSize);
-      res.setHeader('Content-Type', 'application/octet-stream');
-      res.setHeader('X-Plane-Width', String(view.width));
-      res.setHeader('X-Plane-Height', String(view.height));
-      res.setHeader('X-Plane-Factor', String(view.factor));
-      res.setHeader('X-Source-Width', String(view.sourceWidth));
-      res.setHeader('X-Source-Height', String(view.sourceHeight));
-      res.send(view.body);
+      sendPlaneView(res, await runs.componentView(ctx.knex, run, name, req.query.maxSize));
     },
     async cutout(req: ApiRequest<unknown, { id: number }, CutoutQuery>, res: Response) {
       res.json(await runs.cutout(ctx.knex, runOf(res), req.query));

@@ -317,7 +317,8 @@ export async function sourceDownload(
   };
 }
 
-async function loadPlane(knex: Knex, run: Run, name: ComponentName) {
+/** A stored component plane of a succeeded run (409 before it has succeeded, 404 without that plane). */
+export async function loadPlane(knex: Knex, run: Run, name: ComponentName) {
   requireSucceeded(run);
   const row = (await knex('run_components')
     .where({ runId: run.id, name })
@@ -361,7 +362,14 @@ export async function componentView(
   name: ComponentName,
   maxSize?: number,
 ): Promise<PlaneView> {
-  const plane = await loadPlane(knex, run, name);
+  return planeView(await loadPlane(knex, run, name), maxSize);
+}
+
+/** Any full-size plane block-averaged so that its longer side is at most maxSize (full size without it). */
+export function planeView(
+  plane: { width: number; height: number; data: Float32Array },
+  maxSize?: number,
+): PlaneView {
   const view = downsampleMean(
     plane.data,
     null,

@@ -13,6 +13,7 @@ import helmet from 'helmet';
 import { adminRoutes } from './admin/admin.routes';
 import { authRoutes } from './auth/auth.routes';
 import { createAuthentication } from './auth/authentication';
+import { comparisonRoutes } from './comparisons/comparisons.routes';
 import type { AppContext } from './context';
 import { healthRoutes } from './health/health.routes';
 import { type AnyRouteSpec, mountRoutes } from './http/api-route';
@@ -79,6 +80,7 @@ export function createApp(ctx: AppContext, options: AppOptions = {}): SkysieveAp
     ...imageRoutes(ctx),
     ...storageRoutes(ctx),
     ...runRoutes(ctx),
+    ...comparisonRoutes(ctx),
     ...(options.extraRoutes ?? []),
   ];
   const openApiDocument = buildOpenApiDocument(routes, ctx.version);

@@ -1,5 +1,6 @@
 export { ApiToken } from './api-token';
 export { AuditEvent } from './audit-event';
+export { Comparison } from './comparison';
 export { DevMail } from './dev-mail';
 export { Image } from './image';
 export { Invitation } from './invitation';

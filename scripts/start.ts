@@ -8,6 +8,7 @@ import { existsSync, readdirSync, statSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 
+import { startInjectionWorker } from '../server/queue/injection-worker';
 import { startRunWorker } from '../server/queue/run-worker';
 import { stopRunQueue } from '../server/queue/run-queue';
 import { listen, startRuntime } from '../server/runtime';
@@ -69,6 +70,8 @@ try {
 
 // One separation worker alongside the server; more run elsewhere with `npm run worker`.
 const worker = await startRunWorker(runtime.ctx);
+// And one worker for injection-study trials (completeness), one trial at a time.
+const injectionWorker = await startInjectionWorker(runtime.ctx);
 
 console.log(`\nSkysieve is running at ${http.url}\n`);
 printDemoAccounts();
@@ -82,6 +85,7 @@ async function shutdown(signal: string): Promise<void> {
   console.log(`\n[start] ${signal}: stopping…`);
   await http.close().catch(() => undefined);
   await worker.stop().catch(() => undefined);
+  await injectionWorker.stop().catch(() => undefined);
   await stopRunQueue(runtime.ctx).catch(() => undefined);
   await runtime.close().catch(() => undefined);
   await database.stop({ evenIfAdopted: true });

@@ -19,6 +19,7 @@ import { healthRoutes } from './health/health.routes';
 import { type AnyRouteSpec, mountRoutes } from './http/api-route';
 import { apiNotFound, errorHandler } from './http/error-handler';
 import { imageRoutes } from './images/images.routes';
+import { injectionRoutes } from './injection/injection.routes';
 import { buildOpenApiDocument } from './openapi';
 import { projectRoutes } from './projects/projects.routes';
 import { runRoutes } from './runs/runs.routes';
@@ -80,6 +81,7 @@ export function createApp(ctx: AppContext, options: AppOptions = {}): SkysieveAp
     ...imageRoutes(ctx),
     ...storageRoutes(ctx),
     ...runRoutes(ctx),
+    ...injectionRoutes(ctx),
     ...comparisonRoutes(ctx),
     ...(options.extraRoutes ?? []),
   ];

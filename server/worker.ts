@@ -8,6 +8,7 @@ import { parseArgs } from 'node:util';
 
 import { loadConfig } from './config';
 import { consoleLogger } from './context';
+import { startInjectionWorker } from './queue/injection-worker';
 import { startRunWorker } from './queue/run-worker';
 import { startRuntime } from './runtime';
 
@@ -35,11 +36,17 @@ async function main(): Promise<void> {
       throw new Error(`--${name} must be a number ≥ ${min}, got "${text}".`);
     return value;
   };
-  const worker = await startRunWorker(runtime.ctx, {
-    concurrency: number('concurrency', values.concurrency, 1),
+  const queueOptions = {
     pollingIntervalSeconds: number('poll-seconds', values['poll-seconds'], 0.5),
     maintenanceIntervalSeconds: number('maintenance-seconds', values['maintenance-seconds'], 1),
+  };
+  const runWorker = await startRunWorker(runtime.ctx, {
+    concurrency: number('concurrency', values.concurrency, 1),
+    ...queueOptions,
   });
+  // Injection-study trials (one separation each), one at a time beside the runs.
+  const injectionWorker = await startInjectionWorker(runtime.ctx, queueOptions);
+  const worker = { stop: () => Promise.all([runWorker.stop(), injectionWorker.stop()]) };
   let stopping = false;
   const stop = (signal: string) => {
     if (stopping) return;

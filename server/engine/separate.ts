@@ -149,7 +149,8 @@ function validateImage(image: SeparationImage): Uint8Array {
   return valid;
 }
 
-function choosePsf(image: SeparationImage, settings: ResolvedSeparationSettings): Psf {
+/** The PSF a separation of `image` with `settings` uses (also the PSF of injected artificial sources). */
+export function choosePsf(image: SeparationImage, settings: ResolvedSeparationSettings): Psf {
   const eastLeft = image.wcs ? image.wcs.cdelt1Sign() < 0 : true;
   if (settings.psf)
     return psfFromFwhm(settings.psf.fwhmMajor, settings.psf.fwhmMinor, settings.psf.pa, eastLeft);

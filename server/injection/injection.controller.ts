@@ -1,0 +1,77 @@
+import type { Response } from 'express';
+
+import type { CreateInjectionStudyOutput, NumberCountsQuery } from '../../shared/injection';
+import type { AppContext } from '../context';
+import type { ApiRequest } from '../http/api-route';
+import { currentUser } from '../http/guards';
+import { runOf } from '../runs/run-access';
+import type { Download } from '../runs/runs.service';
+import * as studies from './injection.service';
+import { tableToCsv } from '../catalogue/export-csv';
+import { tableToFitsBintable } from '../catalogue/export-fits-table';
+import { tableToVotable } from '../catalogue/export-votable';
+
+type StudyParams = { id: number; studyId: number };
+type ExportQuery = { table: 'completeness' | 'false-sources'; format: 'csv' | 'votable' | 'fits' };
+
+function sendDownload(res: Response, download: Download): void {
+  res.setHeader('Content-Type', download.contentType);
+  res.setHeader('Content-Disposition', `attachment; filename="${download.fileName}"`);
+  res.send(download.body);
+}
+
+export function injectionController(ctx: AppContext) {
+  return {
+    async create(req: ApiRequest<CreateInjectionStudyOutput, { id: number }>, res: Response) {
+      const study = await studies.createStudy(ctx, currentUser(req), runOf(res), req.body);
+      res
+        .status(202)
+        .location(`/api/runs/${study.runId}/injection-studies/${study.id}`)
+        .json(studies.toStudyBody(study));
+    },
+    async list(_req: ApiRequest<unknown, { id: number }>, res: Response) {
+      res.json({ studies: await studies.listStudies(runOf(res).id) });
+    },
+    async show(req: ApiRequest<unknown, StudyParams>, res: Response) {
+      res.json(await studies.studyDetail(await studies.findStudy(runOf(res).id, req.params.studyId)));
+    },
+    async cancel(req: ApiRequest<unknown, StudyParams>, res: Response) {
+      res.json(studies.toStudyBody(await studies.cancelStudy(ctx, runOf(res).id, req.params.studyId)));
+    },
+    async remove(req: ApiRequest<unknown, StudyParams>, res: Response) {
+      await studies.deleteStudy(runOf(res).id, req.params.studyId);
+      res.status(204).end();
+    },
+    async exportTable(req: ApiRequest<unknown, StudyParams, ExportQuery>, res: Response) {
+      const run = runOf(res);
+      const study = await studies.findStudy(run.id, req.params.studyId);
+      sendDownload(res, await studies.studyExport(ctx, run, study, req.query));
+    },
+    async numberCounts(req: ApiRequest<unknown, { id: number }, NumberCountsQuery>, res: Response) {
+      const run = runOf(res);
+      const answer = await studies.runNumberCounts(ctx, run, req.query);
+      const { format } = req.query;
+      if (format === 'json') return void res.json(answer.counts);
+      const table = answer.table();
+      const base = `skysieve-run-${run.id}-number-counts`;
+      if (format === 'csv')
+        return sendDownload(res, {
+          contentType: 'text/csv; charset=utf-8',
+          fileName: `${base}.csv`,
+          body: tableToCsv(table),
+        });
+      if (format === 'votable') {
+        return sendDownload(res, {
+          contentType: 'application/x-votable+xml; charset=utf-8',
+          fileName: `${base}.xml`,
+          body: tableToVotable(table),
+        });
+      }
+      sendDownload(res, {
+        contentType: 'application/fits',
+        fileName: `${base}.fits`,
+        body: Buffer.from(tableToFitsBintable(table)),
+      });
+    },
+  };
+}

@@ -22,6 +22,7 @@ import { imageRoutes } from './images/images.routes';
 import { injectionRoutes } from './injection/injection.routes';
 import { buildOpenApiDocument } from './openapi';
 import { projectRoutes } from './projects/projects.routes';
+import { quicklookRoutes } from './runs/quicklook.routes';
 import { runRoutes } from './runs/runs.routes';
 import { storageRoutes } from './storage/storage.routes';
 import { tokenRoutes } from './tokens/tokens.routes';
@@ -81,6 +82,7 @@ export function createApp(ctx: AppContext, options: AppOptions = {}): SkysieveAp
     ...imageRoutes(ctx),
     ...storageRoutes(ctx),
     ...runRoutes(ctx),
+    ...quicklookRoutes(ctx),
     ...injectionRoutes(ctx),
     ...comparisonRoutes(ctx),
     ...(options.extraRoutes ?? []),

@@ -4,6 +4,7 @@
  *
  * Everything is computed in memory first; each file is then written under a temporary name and renamed into place,
  * so a failure leaves no half-written file (the catalogue writer does the same for its files).
+ * On request also quicklook.png: the input image with the catalogue's sources marked by beam ellipses.
  */
 import { createHash } from 'node:crypto';
 import { readFile, mkdir, rename, rm, writeFile } from 'node:fs/promises';
@@ -13,6 +14,7 @@ import { writeCatalogueFiles, type CatalogueFormat } from '../catalogue/write-ca
 import { readImageAsync, type SkyImage } from '../engine/io/read-image';
 import { writeFits } from '../engine/io/write-fits';
 import { separate, type SeparationProgress, type SeparationResult } from '../engine/separate';
+import { encodeQuicklookPng, renderQuicklook } from '../runs/quicklook-image';
 
 export interface SeparationRunRequest {
   imagePath: string;
@@ -20,7 +22,10 @@ export interface SeparationRunRequest {
   /** Settings as the separation settings schema takes them (shared/separation-settings.ts). */
   settings: Record<string, unknown>;
   plane?: number;
+  /** Catalogue formats; may be empty when only the quick-look picture is asked for. */
   formats: CatalogueFormat[];
+  /** Also write quicklook.png. @default false */
+  quicklook?: boolean;
   softwareVersion: string;
   onProgress?: (progress: SeparationProgress) => void;
   signal?: AbortSignal;
@@ -96,16 +101,27 @@ export async function runSeparation(request: SeparationRunRequest): Promise<Sepa
     `${JSON.stringify(runRecord(request, image, imageSha256, result, wallTimeSeconds), null, 2)}\n`,
   ]);
 
+  if (request.quicklook) {
+    const raster = renderQuicklook(image, result.catalogue, {
+      majorPx: result.psfFwhmPx.major,
+      minorPx: result.psfFwhmPx.minor,
+      paDeg: result.settings.psf?.pa ?? image.beam?.paDeg ?? 0,
+    });
+    contents.push(['quicklook.png', await encodeQuicklookPng(raster)]);
+  }
+
   await mkdir(request.outDir, { recursive: true });
   const files = await writeAtomically(request.outDir, contents);
-  files.push(
-    ...(await writeCatalogueFiles(
-      request.outDir,
-      request.formats,
-      result.catalogue,
-      provenance(request, image, imageSha256, result),
-    )),
-  );
+  if (request.formats.length > 0) {
+    files.push(
+      ...(await writeCatalogueFiles(
+        request.outDir,
+        request.formats,
+        result.catalogue,
+        provenance(request, image, imageSha256, result),
+      )),
+    );
+  }
   return { result, files, wallTimeSeconds };
 }
 

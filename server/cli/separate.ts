@@ -2,10 +2,11 @@
  * Command line: separate one sky image into its diffuse and compact components, with no server or database.
  *
  *   npm run separate -- IMAGE --out DIR [--likelihood gaussian|poisson] [--psf-fwhm MAJ,MIN,PA] [--sigma S]
- *                       [--settings FILE.json] [--plane N] [--formats csv,votable,fits]
+ *                       [--settings FILE.json] [--plane N] [--formats csv,votable,fits,png]
  *
  * Writes catalogue.csv (and the other catalogue formats asked for), diffuse.fits, diffuse_sky.fits,
- * compact.fits, model.fits, residual.fits, residual_norm.fits and run.json into DIR (run-separation.ts).
+ * compact.fits, model.fits, residual.fits, residual_norm.fits and run.json into DIR (run-separation.ts);
+ * with png among the formats also quicklook.png, the input with the sources marked (runs/quicklook-image.ts).
  * A progress bar on a terminal; otherwise a plain progress line on stderr every few seconds.
  * Bad input: exit code 1 and one line on stderr (the reader's or the engine's message). Ctrl-C: exit code 130.
  */
@@ -16,7 +17,7 @@ import { pathToFileURL } from 'node:url';
 import { Command, CommanderError, Option } from 'commander';
 import cliProgress from 'cli-progress';
 import { ZodError } from 'zod';
-import { parseCatalogueFormats } from '../catalogue/write-catalogue-files';
+import { type CatalogueFormat, parseCatalogueFormats } from '../catalogue/write-catalogue-files';
 import type { SeparationProgress } from '../engine/separate';
 import { runSeparation } from './run-separation';
 
@@ -32,6 +33,21 @@ interface CliOptions {
   settings?: string;
   plane?: number;
   formats: string;
+}
+
+/** --formats: the catalogue formats, and whether `png` (the quick-look picture) is among them. */
+export function parseOutputFormats(text: string): { catalogue: CatalogueFormat[]; quicklook: boolean } {
+  const items = text.split(',').map((item) => item.trim().toLowerCase());
+  const quicklook = items.includes('png');
+  const rest = items.filter((item) => item !== 'png' && item !== '');
+  if (quicklook && rest.length === 0) return { catalogue: [], quicklook };
+  try {
+    return { catalogue: parseCatalogueFormats(rest.join(',')), quicklook };
+  } catch (error) {
+    throw new Error(`${oneLine(error).replace(/\.$/, '')} (or png for the quick-look picture).`, {
+      cause: error,
+    });
+  }
 }
 
 /** One line for a person: the first problem of a settings error, the message of anything else. */
@@ -144,7 +160,7 @@ export async function main(argv: string[]): Promise<number> {
     )
     .option('--settings <file>', 'JSON file with separation settings (command-line options override it)')
     .option('--plane <n>', '1-based plane of a FITS cube', parsePositive('--plane', true))
-    .option('--formats <list>', 'catalogue formats: csv, votable, fits', 'csv')
+    .option('--formats <list>', 'catalogue formats: csv, votable, fits; png adds quicklook.png', 'csv')
     .exitOverride()
     .configureOutput({ writeErr: () => {} });
   let images: string[];
@@ -175,7 +191,7 @@ export async function main(argv: string[]): Promise<number> {
   process.once('SIGINT', onSigint);
   let reporter: ReturnType<typeof progressReporter> | null = null;
   try {
-    const formats = parseCatalogueFormats(options.formats);
+    const formats = parseOutputFormats(options.formats);
     const settings = options.settings ? await readSettingsFile(options.settings) : {};
     if (options.likelihood) settings.likelihood = options.likelihood;
     if (options.psfFwhm) settings.psf = options.psfFwhm;
@@ -187,7 +203,8 @@ export async function main(argv: string[]): Promise<number> {
       outDir: options.out,
       settings,
       plane: options.plane,
-      formats,
+      formats: formats.catalogue,
+      quicklook: formats.quicklook,
       softwareVersion,
       onProgress: reporter.update,
       signal: controller.signal,

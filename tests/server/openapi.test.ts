@@ -68,6 +68,7 @@ const contract = [
   'get /api/runs/{id}/sources',
   'get /api/runs/{id}/components/{name}',
   'get /api/runs/{id}/cutout',
+  'get /api/runs/{id}/quicklook.png',
   'post /api/runs/{id}/injection-studies',
   'get /api/runs/{id}/injection-studies',
   'get /api/runs/{id}/injection-studies/{studyId}',

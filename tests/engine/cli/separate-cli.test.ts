@@ -11,11 +11,13 @@ import { createHash } from 'node:crypto';
 import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { Jimp } from 'jimp';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { simulateSky } from '../../../samples/sky-simulator';
 import { parseHeader } from '../../../server/engine/io/header-card';
 import { readImage } from '../../../server/engine/io/read-image';
 import { writeFits } from '../../../server/engine/io/write-fits';
+import { MARKER_RGB } from '../../../server/runs/quicklook-image';
 
 const root = join(import.meta.dirname, '../../..');
 let dir = '';
@@ -65,9 +67,9 @@ afterAll(() => {
 });
 
 describe('npm run separate', () => {
-  it('writes every output with the input WCS, a CSV catalogue and a complete run record', () => {
+  it('writes every output with the input WCS, a CSV catalogue and a complete run record', async () => {
     const out = join(dir, 'out');
-    const run = runCli([imagePath, '--out', out, '--formats', 'csv,votable,fits']);
+    const run = runCli([imagePath, '--out', out, '--formats', 'csv,votable,fits,png']);
     expect(run.status, run.stderr).toBe(0);
     const files = [
       'catalogue.csv',
@@ -80,6 +82,7 @@ describe('npm run separate', () => {
       'residual.fits',
       'residual_norm.fits',
       'run.json',
+      'quicklook.png',
     ];
     for (const file of files) expect(existsSync(join(out, file)), file).toBe(true);
 
@@ -152,6 +155,30 @@ describe('npm run separate', () => {
     expect(record.wallTimeSeconds).toBeGreaterThan(0);
     expect(record.psf.fwhmPx.major).toBeCloseTo(3, 6); // from BMAJ = 4.5″ at 1.5″ per pixel
     expect(record.spectrum).toHaveProperty('slope');
+
+    // quicklook.png: 64 × 48 magnified 4× (the largest whole factor ≤ 4 within 1024 px); a ring of marker
+    // pixels around the first catalogue source, whose centre (x − 0.5)·4 − 0.5, 191 − ((y − 0.5)·4 − 0.5) is
+    // not marked (a ring, not a disc).
+    const picture = await Jimp.read(readFileSync(join(out, 'quicklook.png')));
+    expect([picture.bitmap.width, picture.bitmap.height]).toEqual([256, 192]);
+    const [x, y] = ['x', 'y'].map((column) => Number(csv[1]!.split(',')[header.indexOf(column)]));
+    const centre = {
+      column: Math.round((x! - 0.5) * 4 - 0.5),
+      row: Math.round(191 - ((y! - 0.5) * 4 - 0.5)),
+    };
+    const marked = (column: number, row: number) => {
+      const i = 4 * (row * 256 + column);
+      return [0, 1, 2].every((k) => picture.bitmap.data[i + k] === MARKER_RGB[k]);
+    };
+    let ring = 0;
+    for (let row = centre.row - 8; row <= centre.row + 8; row++) {
+      for (let column = centre.column - 8; column <= centre.column + 8; column++) {
+        if (row >= 0 && row < 192 && column >= 0 && column < 256 && marked(column, row)) ring++;
+      }
+    }
+    // A ring of radius 6 px (FWHM 3 px · 4 / 2) and width 1.5 px covers about 2π·6·1.5 ≈ 57 pixels.
+    expect(ring).toBeGreaterThan(30);
+    expect(marked(centre.column, centre.row)).toBe(false);
   }, 180_000);
 
   it('passes --psf-fwhm, --sigma and --likelihood into the settings', () => {

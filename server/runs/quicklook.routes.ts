@@ -1,0 +1,32 @@
+import type { Response } from 'express';
+
+import { type QuicklookQuery, quicklookQuerySchema } from '../../shared/quicklook';
+import { runIdParamsSchema } from '../../shared/runs';
+import type { AppContext } from '../context';
+import { type AnyRouteSpec, type ApiRequest, defineRoute, errors } from '../http/api-route';
+import { loadRun, runOf } from './run-access';
+import { quicklookPng } from './quicklook.service';
+
+export function quicklookRoutes(ctx: AppContext): AnyRouteSpec[] {
+  return [
+    defineRoute({
+      method: 'get',
+      path: '/api/runs/:id/quicklook.png',
+      summary:
+        'Quick-look PNG of a finished run: the data or a component, asinh-stretched, with the sources marked by beam ellipses',
+      tag: 'Runs',
+      access: 'signed-in',
+      params: runIdParamsSchema,
+      query: quicklookQuerySchema,
+      load: [loadRun('viewer')],
+      responses: { 200: { description: 'image/png' }, ...errors(404, 409) },
+      async handler(req: ApiRequest<unknown, { id: number }, QuicklookQuery>, res: Response) {
+        const picture = await quicklookPng(ctx.knex, runOf(res), req.query);
+        res.setHeader('Content-Type', 'image/png');
+        res.setHeader('Content-Disposition', `inline; filename="${picture.fileName}"`);
+        res.setHeader('Cache-Control', 'private, max-age=300');
+        res.send(picture.png);
+      },
+    }),
+  ];
+}

@@ -379,6 +379,26 @@ function detectFormat(text: string): ReferenceFormat {
     : 'csv';
 }
 
+/**
+ * The file's columns and its first `sampleRows` rows as text cells, without choosing position columns: what a
+ * person needs to pick the columns when the guess fails. Throws {@link ReferenceCatalogueError} when the file
+ * cannot be read as CSV or VOTable at all.
+ */
+export function readReferenceColumns(
+  text: string,
+  options: { format?: ReferenceFormat; sampleRows?: number } = {},
+): { format: ReferenceFormat; columns: ReferenceColumn[]; rows: (string | null)[][]; rowCount: number } {
+  if (text.trim() === '') throw new ReferenceCatalogueError('The reference catalogue file is empty.');
+  const format = options.format ?? detectFormat(text);
+  const raw = format === 'votable' ? readVotableTable(text) : readCsvTable(text);
+  return {
+    format,
+    columns: raw.columns,
+    rows: raw.rows.slice(0, options.sampleRows ?? 10).map((row) => row.cells),
+    rowCount: raw.rows.length,
+  };
+}
+
 /** Reads a reference catalogue from its text (see the file comment). */
 export function readReferenceCatalogue(text: string, options: ReadReferenceOptions = {}): ReferenceCatalogue {
   if (text.trim() === '') throw new ReferenceCatalogueError('The reference catalogue file is empty.');

@@ -15,6 +15,7 @@ import { authRoutes } from './auth/auth.routes';
 import { createAuthentication } from './auth/authentication';
 import { comparisonRoutes } from './comparisons/comparisons.routes';
 import type { AppContext } from './context';
+import { crossMatchRoutes } from './cross-match/cross-match.routes';
 import { healthRoutes } from './health/health.routes';
 import { type AnyRouteSpec, mountRoutes } from './http/api-route';
 import { apiNotFound, errorHandler } from './http/error-handler';
@@ -84,6 +85,7 @@ export function createApp(ctx: AppContext, options: AppOptions = {}): SkysieveAp
     ...runRoutes(ctx),
     ...quicklookRoutes(ctx),
     ...injectionRoutes(ctx),
+    ...crossMatchRoutes(ctx),
     ...comparisonRoutes(ctx),
     ...(options.extraRoutes ?? []),
   ];

@@ -235,9 +235,16 @@ export type UserStorage = z.infer<typeof userStorageSchema>;
 export const projectStorageSchema = z.object({
   projectId: z.number().int(),
   name: z.string(),
+  /** The project's owner; null when that account was deleted. */
+  ownerId: z.number().int().nullable(),
+  ownerEmail: z.string().nullable(),
+  ownerName: z.string().nullable(),
   imageCount: z.number().int().nonnegative(),
   /** Bytes of the originals uploaded into the project. */
   imageBytes: z.number().int().nonnegative(),
+  runCount: z.number().int().nonnegative(),
+  /** Bytes of the stored run results (component planes) of the project's runs. */
+  runBytes: z.number().int().nonnegative(),
 });
 export type ProjectStorage = z.infer<typeof projectStorageSchema>;
 

@@ -166,6 +166,43 @@ describe('minimiseLbfgs', () => {
     expect(r2.evaluations).toBe(r1.evaluations);
   });
 
+  it("stops when the caller's stopWhen test says so, with the iterate it was given", () => {
+    // Stop once x is within 1e-3 of the known minimum (1, 1) of the Rosenbrock function.
+    let seen: number[] = [];
+    const r = minimiseLbfgs(rosenbrock, Float64Array.from([-1.2, 1]), {
+      gradientTolerance: 0,
+      stopWhen: (_p, x) => {
+        seen = Array.from(x);
+        return Math.hypot(x[0]! - 1, x[1]! - 1) < 1e-3;
+      },
+    });
+    expect(r.reason).toBe('caller-converged');
+    expect(r.converged).toBe(true);
+    expect(Array.from(r.x)).toEqual(seen);
+    expect(Math.hypot(r.x[0]! - 1, r.x[1]! - 1)).toBeLessThan(1e-3);
+    // without the test it would go on to the gradient tolerance: more iterations
+    const full = minimiseLbfgs(rosenbrock, Float64Array.from([-1.2, 1]), { gradientTolerance: 1e-10 });
+    expect(full.iterations).toBeGreaterThan(r.iterations);
+  });
+
+  it('keeps working when curvature pairs are rejected with the memory full (sᵀy ≤ 0 on a concave patch)', () => {
+    // f = a sine-perturbed quadratic, x²/2 + 0.4·sin(3x) per coordinate, has regions of negative curvature
+    // (f'' = 1 − 3.6·sin(3x)), where pairs with sᵀy ≤ 0 come up and must be skipped; its minima are known only
+    // numerically, so the check is that the gradient tolerance is reached.
+    const wavy: ObjectiveAndGradient = (x, g) => {
+      let f = 0;
+      for (let i = 0; i < x.length; i++) {
+        f += 0.5 * x[i]! * x[i]! + 0.4 * Math.sin(3 * x[i]!);
+        g[i] = x[i]! + 1.2 * Math.cos(3 * x[i]!);
+      }
+      return f;
+    };
+    const x0 = Float64Array.from({ length: 12 }, (_, i) => 3 - 0.5 * i);
+    const r = minimiseLbfgs(wavy, x0, { memory: 3, gradientTolerance: 1e-9, maxIterations: 2000 });
+    expect(r.converged, `reason ${r.reason}`).toBe(true);
+    expect(r.gradNorm).toBeLessThanOrEqual(1e-9);
+  });
+
   it('respects the evaluation budget', () => {
     const r = minimiseLbfgs(rosenbrock, Float64Array.from([-1.2, 1]), { maxEvaluations: 10 });
     expect(r.reason).toBe('max-evaluations');

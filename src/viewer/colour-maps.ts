@@ -8,7 +8,7 @@
  */
 import { labToLinearRgb, linearToSrgb, srgb8ToLab } from './colour-science';
 
-export type ColourMapName = 'grey' | 'ember' | 'tidepool' | 'heather' | 'frost';
+export type ColourMapName = 'grey' | 'ember' | 'tidepool' | 'heather' | 'frost' | DivergingColourMapName;
 export const COLOUR_MAP_NAMES: readonly ColourMapName[] = ['grey', 'ember', 'tidepool', 'heather', 'frost'];
 export const COLOUR_MAP_LABELS: Record<ColourMapName, string> = {
   grey: 'Grey',
@@ -16,7 +16,16 @@ export const COLOUR_MAP_LABELS: Record<ColourMapName, string> = {
   tidepool: 'Tidepool',
   heather: 'Heather',
   frost: 'Frost',
+  seesaw: 'Seesaw (diverging)',
 };
+
+/**
+ * Diverging maps, for signed values centred on zero (differences, residuals): L* rises from both ends to a
+ * near-neutral light centre, so equal |values| of either sign look equally strong; the two halves differ in hue.
+ * They are not in COLOUR_MAP_NAMES (whose maps all rise in lightness); a viewer offers them where asked to.
+ */
+export type DivergingColourMapName = 'seesaw';
+export const DIVERGING_COLOUR_MAP_NAMES: readonly DivergingColourMapName[] = ['seesaw'];
 
 export const COLOUR_MAP_SIZE = 256;
 
@@ -32,7 +41,7 @@ interface Design {
   points: ControlPoint[];
 }
 
-const DESIGNS: Record<Exclude<ColourMapName, 'grey'>, Design> = {
+const DESIGNS: Record<Exclude<ColourMapName, 'grey' | DivergingColourMapName>, Design> = {
   // Deep violet-brown through red and orange to a pale straw white.
   ember: {
     lightness: [6, 97],
@@ -124,7 +133,24 @@ function aboveLightness(rgb: [number, number, number], previous: Uint8Array): [n
   return out;
 }
 
+/**
+ * Seesaw: steel blue (h 255°) below the centre, brick red (h 35°) above; L* runs linearly from 38 at either end
+ * to 97 at the centre, and C* from 48 at the ends to 0 at the centre, so the middle entry is a light neutral grey.
+ * Entries i and 255 − i have the same L* (before 8-bit rounding).
+ */
+function buildDiverging(): Uint8Array {
+  const table = new Uint8Array(COLOUR_MAP_SIZE * 3);
+  for (let i = 0; i < COLOUR_MAP_SIZE; i++) {
+    const t = i / (COLOUR_MAP_SIZE - 1);
+    const fromCentre = Math.abs(2 * t - 1);
+    const L = 97 - fromCentre * (97 - 38);
+    table.set(lchToSrgb8(L, 48 * fromCentre, t < 0.5 ? 255 : 35), 3 * i);
+  }
+  return table;
+}
+
 function build(name: ColourMapName): Uint8Array {
+  if (name === 'seesaw') return buildDiverging();
   const table = new Uint8Array(COLOUR_MAP_SIZE * 3);
   for (let i = 0; i < COLOUR_MAP_SIZE; i++) {
     const t = i / (COLOUR_MAP_SIZE - 1);
@@ -148,7 +174,8 @@ const cache = new Map<ColourMapName, Uint8Array>();
 
 /** RGB lookup table of a map: COLOUR_MAP_SIZE × [r, g, b], 8-bit sRGB. Built once, then shared (do not write). */
 export function colourMapTable(name: ColourMapName): Uint8Array {
-  if (!COLOUR_MAP_NAMES.includes(name)) throw new RangeError(`Unknown colour map "${name}".`);
+  if (!COLOUR_MAP_NAMES.includes(name) && !(DIVERGING_COLOUR_MAP_NAMES as readonly string[]).includes(name))
+    throw new RangeError(`Unknown colour map "${name}".`);
   let table = cache.get(name);
   if (!table) {
     table = build(name);

@@ -68,6 +68,12 @@ const routes: RouteRecordRaw[] = [
         meta: { title: 'Run' },
       },
       {
+        path: 'comparisons/:id(\\d+)',
+        name: 'comparison',
+        component: () => import('@/pages/ComparisonPage.vue'),
+        meta: { title: 'Comparison' },
+      },
+      {
         path: 'account',
         name: 'account',
         component: () => import('@/pages/AccountPage.vue'),

@@ -72,46 +72,54 @@ export const runApi = {
   componentFitsUrl: (runId: number, name: ComponentName) =>
     `/api/runs/${id(runId)}/components/${encodeURIComponent(name)}?format=fits`,
   /** Block-averaged float32 view of one component plane whose longest side is at most maxSize. */
-  async component(runId: number, name: ComponentName, maxSize = 1024): Promise<ComponentPlane> {
+  component(runId: number, name: ComponentName, maxSize = 1024): Promise<ComponentPlane> {
     const path = `/api/runs/${id(runId)}/components/${encodeURIComponent(name)}?format=float32&maxSize=${maxSize}`;
-    let response: Response;
-    try {
-      response = await globalThis.fetch(path, {
-        method: 'GET',
-        headers: { accept: 'application/octet-stream' },
-        credentials: 'same-origin',
-      });
-    } catch {
-      throw new ApiError(
-        0,
-        'network',
-        'The Skysieve server cannot be reached. Check your connection and try again.',
-      );
-    }
-    if (!response.ok) {
-      const body = errorBodySchema.safeParse(await response.json().catch(() => undefined));
-      if (body.success) throw new ApiError(response.status, body.data.error.code, body.data.error.message);
-      throw new ApiError(response.status, 'unexpected_response', `The server answered ${response.status}.`);
-    }
-    const header = (name: string) => Number(response.headers.get(name));
-    const width = header('X-Plane-Width');
-    const height = header('X-Plane-Height');
-    const bytes = new Uint8Array(await response.arrayBuffer());
-    if (!(width > 0 && height > 0) || bytes.byteLength !== width * height * 4)
-      throw new ApiError(response.status, 'unexpected_response', `The ${name} plane could not be read.`);
-    const data = new Float32Array(width * height);
-    const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
-    for (let i = 0; i < data.length; i++) data[i] = view.getFloat32(i * 4, true);
-    return {
-      width,
-      height,
-      factor: header('X-Plane-Factor') || 1,
-      sourceWidth: header('X-Source-Width') || width,
-      sourceHeight: header('X-Source-Height') || height,
-      data,
-    };
+    return fetchPlane(path, `The ${name} plane`);
   },
 };
+
+/**
+ * GET of a little-endian float32 plane view (size in the X-Plane-* headers), e.g. a run's component or a
+ * comparison's difference; `what` names it in the message when the bytes cannot be read.
+ */
+export async function fetchPlane(path: string, what: string): Promise<ComponentPlane> {
+  let response: Response;
+  try {
+    response = await globalThis.fetch(path, {
+      method: 'GET',
+      headers: { accept: 'application/octet-stream' },
+      credentials: 'same-origin',
+    });
+  } catch {
+    throw new ApiError(
+      0,
+      'network',
+      'The Skysieve server cannot be reached. Check your connection and try again.',
+    );
+  }
+  if (!response.ok) {
+    const body = errorBodySchema.safeParse(await response.json().catch(() => undefined));
+    if (body.success) throw new ApiError(response.status, body.data.error.code, body.data.error.message);
+    throw new ApiError(response.status, 'unexpected_response', `The server answered ${response.status}.`);
+  }
+  const header = (name: string) => Number(response.headers.get(name));
+  const width = header('X-Plane-Width');
+  const height = header('X-Plane-Height');
+  const bytes = new Uint8Array(await response.arrayBuffer());
+  if (!(width > 0 && height > 0) || bytes.byteLength !== width * height * 4)
+    throw new ApiError(response.status, 'unexpected_response', `${what} could not be read.`);
+  const data = new Float32Array(width * height);
+  const view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
+  for (let i = 0; i < data.length; i++) data[i] = view.getFloat32(i * 4, true);
+  return {
+    width,
+    height,
+    factor: header('X-Plane-Factor') || 1,
+    sourceWidth: header('X-Source-Width') || width,
+    sourceHeight: header('X-Source-Height') || height,
+    data,
+  };
+}
 
 /** Seconds to take one 2-D real FFT forward + inverse pair on a 2048² grid on the reference machine
  * (../shared/STACK.md FFT table, pffft WASM, 2 threads: 52 ms). */

@@ -68,6 +68,12 @@ const routes: RouteRecordRaw[] = [
         meta: { title: 'Run' },
       },
       {
+        path: 'runs/:id(\\d+)/completeness',
+        name: 'run-completeness',
+        component: () => import('@/pages/RunCompletenessPage.vue'),
+        meta: { title: 'Completeness' },
+      },
+      {
         path: 'comparisons/:id(\\d+)',
         name: 'comparison',
         component: () => import('@/pages/ComparisonPage.vue'),

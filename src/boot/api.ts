@@ -44,7 +44,13 @@ import {
   type AdminUpdateUserRequest,
   type AuditAction,
 } from '@shared/admin';
-import { decodePixelView, imageSummarySchema, type ImageSummary, type PixelView } from '@shared/images';
+import {
+  decodePixelView,
+  imageSummarySchema,
+  storageUsageSchema,
+  type ImageSummary,
+  type PixelView,
+} from '@shared/images';
 
 /** A failed API call: `status` 0 means the server could not be reached or answered something unreadable. */
 export class ApiError extends Error {
@@ -448,6 +454,7 @@ export function createApiClient(options: ApiClientOptions = {}) {
       mail: () => request('GET', '/api/admin/mail', { schema: devMailListSchema }),
       mailMessage: (mailId: number) =>
         request('GET', `/api/admin/mail/${id(mailId)}`, { schema: devMailMessageSchema }),
+      storage: () => request('GET', '/api/admin/storage', { schema: storageUsageSchema }),
     },
   };
 }

@@ -99,6 +99,12 @@ const routes: RouteRecordRaw[] = [
         meta: { requiresAdmin: true, title: 'Audit log' },
       },
       {
+        path: 'admin/storage',
+        name: 'admin-storage',
+        component: () => import('@/pages/AdminStoragePage.vue'),
+        meta: { requiresAdmin: true, title: 'Storage' },
+      },
+      {
         path: 'admin/mail/:mailId(\\d+)?',
         name: 'admin-mail',
         component: () => import('@/pages/AdminMailPage.vue'),

@@ -1,4 +1,4 @@
-/** The admin area: accounts with roles, quota and usage; the audit log; the development mail inbox. */
+/** The admin area: accounts with roles, quota and usage; storage per account and project; the audit log; the development mail inbox. */
 import { defineStore } from 'pinia';
 import { ref } from 'vue';
 
@@ -10,6 +10,7 @@ import type {
   DevMailMessage,
   DevMailSummary,
 } from '@shared/admin';
+import type { StorageUsage } from '@shared/images';
 import { api } from '@/boot/api';
 import { messageOf, notifyError } from '@/boot/notify';
 
@@ -34,6 +35,10 @@ export const useAdminStore = defineStore('admin', () => {
   const mailError = ref<string | null>(null);
   const message = ref<DevMailMessage | null>(null);
   const messageLoading = ref(false);
+
+  const storage = ref<StorageUsage | null>(null);
+  const storageLoading = ref(false);
+  const storageError = ref<string | null>(null);
 
   async function fetchUsers(): Promise<void> {
     usersLoading.value = true;
@@ -89,6 +94,19 @@ export const useAdminStore = defineStore('admin', () => {
     }
   }
 
+  async function fetchStorage(): Promise<void> {
+    storageLoading.value = true;
+    storageError.value = null;
+    try {
+      storage.value = await api.admin.storage();
+    } catch (error) {
+      storageError.value = messageOf(error);
+      notifyError(error);
+    } finally {
+      storageLoading.value = false;
+    }
+  }
+
   async function openMessage(mailId: number): Promise<void> {
     messageLoading.value = true;
     try {
@@ -113,10 +131,14 @@ export const useAdminStore = defineStore('admin', () => {
     mailError,
     message,
     messageLoading,
+    storage,
+    storageLoading,
+    storageError,
     fetchUsers,
     updateUser,
     fetchAudit,
     fetchMail,
     openMessage,
+    fetchStorage,
   };
 });

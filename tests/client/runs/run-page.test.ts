@@ -197,12 +197,15 @@ describe('RunPage', () => {
     const { wrapper } = await mountPage(RunPage, { path: '/runs/42', user: owner });
     await settle();
     expect(wrapper.get('[data-test="convergence"]').text()).toContain('3 iterations, converged');
-    const lastCall = plotly.react.mock.calls.at(-1) as unknown as [
-      HTMLElement,
-      { x: number[]; y: number[] }[],
-    ];
+    // The fit checks below draw their own figures: take the convergence chart's last draw.
+    const chart = wrapper.get('[data-test="convergence"] [role="img"]').element;
+    const calls = plotly.react.mock.calls as unknown as [HTMLElement, { x: number[]; y: number[] }[]][];
+    const lastCall = calls.filter((call) => call[0] === chart).at(-1)!;
     expect(lastCall[1][0]!.x).toEqual([1, 2, 3]);
     expect(lastCall[1][0]!.y).toEqual([500, 400, 390]);
+    expect(wrapper.find('[data-test="fit-checks"]').exists()).toBe(true);
+    const hrefs = wrapper.findAll('[data-test="exports"] a').map((node) => node.attributes('href'));
+    expect(hrefs).toContain('/api/runs/42/quicklook.png?component=data');
     // Markers take the PSF size the fit used.
     expect(wrapper.getComponent(SkyViewer).props('sources')?.[0]).toMatchObject({
       majorPixels: 4,

@@ -341,6 +341,39 @@ export function createApiClient(options: ApiClientOptions = {}) {
     return parsed.data;
   }
 
+  /**
+   * POST of a multipart form (e.g. a catalogue file beside text fields) with the CSRF token; refusals become an
+   * ApiError with the server's message, the answer is parsed with `schema`. `form` builds a fresh body per try.
+   */
+  async function postForm<T>(path: string, form: () => FormData, schema: z.ZodType<T>): Promise<T> {
+    const attempt = async () => {
+      const token = await csrf();
+      try {
+        return await doFetch(baseUrl + path, {
+          method: 'POST',
+          headers: { accept: 'application/json', 'x-csrf-token': token },
+          credentials: 'same-origin',
+          body: form(),
+        });
+      } catch {
+        throw new ApiError(0, 'network', UNREACHABLE);
+      }
+    };
+    let response = await attempt();
+    if (!response.ok) {
+      let error = await errorFrom(response);
+      if (error.code === 'csrf_invalid') {
+        csrfToken = null;
+        response = await attempt();
+        if (response.ok) return parse(response, schema, 'POST', path);
+        error = await errorFrom(response);
+      }
+      reportSessionEnd(error, path);
+      throw error;
+    }
+    return parse(response, schema, 'POST', path);
+  }
+
   function csrf(): Promise<string> {
     csrfToken ??= (async () => {
       const response = await doFetch(`${baseUrl}/api/auth/csrf`, {
@@ -373,6 +406,7 @@ export function createApiClient(options: ApiClientOptions = {}) {
 
   return {
     request,
+    postForm,
     resetCsrf,
     whenSessionEnds,
     config: {

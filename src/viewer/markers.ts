@@ -19,6 +19,8 @@ export interface ViewerSource {
   label?: string;
   /** Further lines of the tooltip, e.g. flux density ± error, SNR. */
   details?: string[];
+  /** 'secondary' markers (e.g. a reference catalogue beside ours) are drawn dashed in another colour. */
+  kind?: 'primary' | 'secondary';
 }
 
 /** Unit vector of the major axis in image coordinates (y up). */

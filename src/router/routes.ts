@@ -68,6 +68,12 @@ const routes: RouteRecordRaw[] = [
         meta: { title: 'Run' },
       },
       {
+        path: 'runs/:id(\\d+)/cross-match',
+        name: 'run-cross-match',
+        component: () => import('@/pages/CrossMatchPage.vue'),
+        meta: { title: 'Cross-match' },
+      },
+      {
         path: 'runs/:id(\\d+)/completeness',
         name: 'run-completeness',
         component: () => import('@/pages/RunCompletenessPage.vue'),

@@ -2,9 +2,10 @@ import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
 
 import { COMPLETENESS_CAUTION_TEXT, type InjectionStudyDetail, type NumberCounts } from '@shared/injection';
 import RunCompletenessPage from '@/pages/RunCompletenessPage.vue';
+import RunPage from '@/pages/RunPage.vue';
 import { makeUser } from '../support/fixtures';
 import { mountPage, pageText, settle, unmountAll } from '../support/mount';
-import { makeFinishedRun, mockRunsApi } from './runs-support';
+import { makeFinishedRun, makeImageDetail, mockRunsApi } from './runs-support';
 
 const plotly = vi.hoisted(() => ({ react: vi.fn(async () => undefined), purge: vi.fn() }));
 vi.mock('plotly.js-dist-min', () => ({ default: plotly }));
@@ -275,5 +276,32 @@ describe('RunCompletenessPage', () => {
     await settle();
     expect(wrapper.get('[data-test="run-not-finished"]').text()).toContain('this run is failed');
     api.expectNoUnexpectedCalls();
+  });
+
+  it('is reached from a finished run by the Completeness button, which a running run does not show', async () => {
+    vi.stubGlobal(
+      'EventSource',
+      class {
+        addEventListener() {}
+        close() {}
+      },
+    );
+    const sources = { body: { sources: [], page: 1, pageSize: 25, total: 0, caution: 'Model-dependent.' } };
+    mockRunsApi({
+      'GET /api/runs/:id': { body: makeFinishedRun() },
+      'GET /api/images/:id': { body: makeImageDetail() },
+      'GET /api/runs/:id/sources': sources,
+    });
+    const { wrapper } = await mountPage(RunPage, { path: '/runs/42', user });
+    await settle();
+    expect(wrapper.get('[data-test="completeness-link"]').attributes('href')).toBe('/runs/42/completeness');
+    unmountAll();
+    mockRunsApi({
+      'GET /api/runs/:id': { body: makeFinishedRun({ status: 'running' }) },
+      'GET /api/images/:id': { body: makeImageDetail() },
+    });
+    const running = await mountPage(RunPage, { path: '/runs/42', user });
+    await settle();
+    expect(running.wrapper.find('[data-test="completeness-link"]').exists()).toBe(false);
   });
 });

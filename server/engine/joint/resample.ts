@@ -3,9 +3,11 @@
  * adjoint Rᵀ, built once from the two pixel ↔ world maps.
  *
  * Every common-grid pixel is carried to the image through world coordinates (common pixel → world → image
- * pixel) and spread over the image pixels it overlaps: it is taken as a square of the same area as its image in
- * the target grid (side √|det J|, J the local Jacobian of the map, from differences over ±½ pixel), centred on
- * its mapped centre, and its value is shared in proportion to the overlap areas. The weights of one common pixel
+ * pixel) and spread over the image pixels it overlaps: its footprint on the target grid is the parallelogram
+ * spanned by the columns of the local Jacobian J of the map (differences over ±½ pixel) about its mapped
+ * centre, clipped against each target pixel (Sutherland–Hodgman polygon clipping, shoelace areas), and its value
+ * is shared in proportion to the overlap areas. Neighbouring parallelograms meet edge to edge up to the map's
+ * curvature, so rotated and offset grids are covered without gaps or double counting. The weights of one common pixel
  * sum to 1 over the image pixels it lands on, so R conserves flux: a point source keeps its summed flux in every
  * image (light that falls outside the image is lost there, as it would be on the sky).
  * When the grids are aligned and the image pixel is a whole number f of common pixels, every square falls
@@ -42,9 +44,41 @@ export interface Resampler {
 
 const DROP = 1e-9;
 
-/** Overlap length of [a0, a1] with [b0, b1]. */
-function overlap(a0: number, a1: number, b0: number, b1: number): number {
-  return Math.max(0, Math.min(a1, b1) - Math.max(a0, b0));
+/** Clips a polygon (flat x, y list) to one half-plane: keep points with sign·(coordinate − edge) ≤ 0. */
+function clipEdge(points: number[], axis: 0 | 1, edge: number, sign: 1 | -1): number[] {
+  const out: number[] = [];
+  const count = points.length / 2;
+  for (let k = 0; k < count; k++) {
+    const ax = points[2 * k]!;
+    const ay = points[2 * k + 1]!;
+    const b = (k + 1) % count;
+    const bx = points[2 * b]!;
+    const by = points[2 * b + 1]!;
+    const da = sign * ((axis === 0 ? ax : ay) - edge);
+    const db = sign * ((axis === 0 ? bx : by) - edge);
+    if (da <= 0) out.push(ax, ay);
+    if ((da < 0 && db > 0) || (da > 0 && db < 0)) {
+      const t = da / (da - db);
+      out.push(ax + t * (bx - ax), ay + t * (by - ay));
+    }
+  }
+  return out;
+}
+
+/** Area of a convex polygon inside the box [x0, x1] × [y0, y1] (Sutherland–Hodgman, then the shoelace formula). */
+export function clippedArea(polygon: number[], x0: number, x1: number, y0: number, y1: number): number {
+  let p = clipEdge(polygon, 0, x0, -1);
+  if (p.length >= 6) p = clipEdge(p, 0, x1, 1);
+  if (p.length >= 6) p = clipEdge(p, 1, y0, -1);
+  if (p.length >= 6) p = clipEdge(p, 1, y1, 1);
+  if (p.length < 6) return 0;
+  let twice = 0;
+  const count = p.length / 2;
+  for (let k = 0; k < count; k++) {
+    const b = (k + 1) % count;
+    twice += p[2 * k]! * p[2 * b + 1]! - p[2 * b]! * p[2 * k + 1]!;
+  }
+  return Math.abs(twice) / 2;
 }
 
 export function buildResampler(
@@ -71,14 +105,32 @@ export function buildResampler(
       const [xm0, ym0] = map(x - 0.5, y);
       const [xp1, yp1] = map(x, y + 0.5);
       const [xm1, ym1] = map(x, y - 0.5);
-      const det = (xp0 - xm0) * (yp1 - ym1) - (xp1 - xm1) * (yp0 - ym0);
-      if (!Number.isFinite(det) || det === 0) continue;
-      const half = 0.5 * Math.sqrt(Math.abs(det));
-      const area = 4 * half * half;
-      const x0 = cx - half;
-      const x1 = cx + half;
-      const y0 = cy - half;
-      const y1 = cy + half;
+      const ax = 0.5 * (xp0 - xm0);
+      const ay = 0.5 * (yp0 - ym0);
+      const bx = 0.5 * (xp1 - xm1);
+      const by = 0.5 * (yp1 - ym1);
+      const area = 4 * Math.abs(ax * by - ay * bx);
+      if (!Number.isFinite(area) || area === 0) continue;
+      const polygon = [
+        cx - ax - bx,
+        cy - ay - by,
+        cx + ax - bx,
+        cy + ay - by,
+        cx + ax + bx,
+        cy + ay + by,
+        cx - ax + bx,
+        cy - ay + by,
+      ];
+      let x0 = Infinity;
+      let x1 = -Infinity;
+      let y0 = Infinity;
+      let y1 = -Infinity;
+      for (let k = 0; k < 8; k += 2) {
+        x0 = Math.min(x0, polygon[k]!);
+        x1 = Math.max(x1, polygon[k]!);
+        y0 = Math.min(y0, polygon[k + 1]!);
+        y1 = Math.max(y1, polygon[k + 1]!);
+      }
       const i0 = Math.max(0, Math.floor(x0 + 0.5));
       const i1 = Math.min(targetWidth - 1, Math.floor(x1 + 0.5));
       const j0 = Math.max(0, Math.floor(y0 + 0.5));
@@ -87,17 +139,15 @@ export function buildResampler(
       cellWeight.length = 0;
       let kept = 0;
       for (let j = j0; j <= j1; j++) {
-        const oy = overlap(y0, y1, j - 0.5, j + 0.5);
-        if (oy <= 0) continue;
         for (let i = i0; i <= i1; i++) {
-          const w = (overlap(x0, x1, i - 0.5, i + 0.5) * oy) / area;
+          const w = clippedArea(polygon, i - 0.5, i + 0.5, j - 0.5, j + 0.5) / area;
           if (w < DROP) continue;
           cellIndex.push(j * targetWidth + i);
           cellWeight.push(w);
           kept += w;
         }
       }
-      // Whole squares inside the image: renormalise away the rounding crumbs (|1 − kept| ~ 1e−15).
+      // Footprints wholly inside the image: renormalise away the rounding crumbs.
       const inside = x0 >= -0.5 && x1 <= targetWidth - 0.5 && y0 >= -0.5 && y1 <= targetHeight - 0.5;
       const scale = inside && kept > 0 ? 1 / kept : 1;
       for (let k = 0; k < cellIndex.length; k++) {

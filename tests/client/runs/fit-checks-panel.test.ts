@@ -86,6 +86,15 @@ describe('FitChecksPanel', () => {
     expect(traces[0]!.x[0]).toBeCloseTo(-5.875, 12);
     expect(traces[1]!.y).toEqual(expectedNormalCounts(edges, d.residualHistogram.count));
     expect(layout.yaxis.type).toBe('log');
+    // From half a pixel up to twice the fullest bin, so the unit normal's far tail does not squeeze the bars.
+    const top = Math.max(
+      ...d.residualHistogram.counts,
+      ...expectedNormalCounts(edges, d.residualHistogram.count),
+    );
+    expect((layout.yaxis as unknown as { range: number[] }).range).toEqual([
+      Math.log10(0.5),
+      Math.log10(2 * top),
+    ]);
     await wrapper!.get('[data-test="log-counts"]').trigger('click');
     await settle();
     expect(lastDraw()[2].yaxis.type).toBe('linear');

@@ -170,16 +170,19 @@ export async function processTrialJob(
 ): Promise<void> {
   const { knex } = ctx;
   const claimed = await claim(knex, trialId);
-  if (claimed === null) return;
-  if (claimed === 'cancelled') {
-    const studyId = (await knex('injection_trials').where('id', trialId).first('studyId')) as
+  if (claimed === null || claimed === 'cancelled') {
+    // Also for a trial that had already ended: its worker may have stopped between storing it and bringing the
+    // study up to date, and settling is idempotent.
+    const row = (await knex('injection_trials').where('id', trialId).first('studyId')) as
       { studyId: number } | undefined;
-    if (studyId) await settleStudy(knex, studyId.studyId);
+    if (row) await settleStudy(knex, row.studyId);
     return;
   }
   const failTrial = async (message: string) => {
-    await endTrial(knex, trialId, 'failed', message);
-    await settleStudy(knex, claimed.studyId);
+    await knex.transaction(async (trx) => {
+      await endTrial(trx, trialId, 'failed', message);
+      await settleStudy(trx, claimed.studyId);
+    });
   };
 
   const inputs = await loadInputs(knex, claimed.runId, claimed.kind === 'false-source');
@@ -247,16 +250,19 @@ export async function processTrialJob(
         detections: result.catalogue.length,
       };
     }
-    await knex('injection_trials')
-      .where({ id: trialId, status: 'running' })
-      .update({
-        status: 'succeeded',
-        recovered: JSON.stringify(recovered),
-        errorMessage: null,
-        finishedAt: knex.fn.now(),
-        updatedAt: knex.fn.now(),
-      });
-    await settleStudy(knex, claimed.studyId);
+    // The trial's outcome and the study's update (the aggregate, when it was the last trial) in one transaction.
+    await knex.transaction(async (trx) => {
+      await trx('injection_trials')
+        .where({ id: trialId, status: 'running' })
+        .update({
+          status: 'succeeded',
+          recovered: JSON.stringify(recovered),
+          errorMessage: null,
+          finishedAt: trx.fn.now(),
+          updatedAt: trx.fn.now(),
+        });
+      await settleStudy(trx, claimed.studyId);
+    });
   } catch (error) {
     clearInterval(poll);
     if (error instanceof FitCancelledError || controller.signal.aborted) {
@@ -270,8 +276,10 @@ export async function processTrialJob(
           `The trial separation took longer than the time limit of ${minutes} minutes and was stopped.`,
         );
       }
-      await endTrial(knex, trialId, 'cancelled', null);
-      await settleStudy(knex, claimed.studyId);
+      await knex.transaction(async (trx) => {
+        await endTrial(trx, trialId, 'cancelled', null);
+        await settleStudy(trx, claimed.studyId);
+      });
       return;
     }
     if (error instanceof Error && /stopped unexpectedly|database|ECONN|terminat/i.test(error.message))
@@ -290,16 +298,18 @@ export async function markTrialLost(ctx: WorkerContext, trialId: number, attempt
   const row = (await knex('injection_trials').where('id', trialId).first('studyId')) as
     { studyId: number } | undefined;
   if (!row) return;
-  await knex('injection_trials')
-    .where('id', trialId)
-    .whereIn('status', ['queued', 'running'])
-    .update({
-      status: 'failed',
-      errorMessage:
-        `The trial was started ${attempts} times and its worker stopped each time before it finished ` +
-        '(the worker process ended or the trial exceeded its time limit).',
-      finishedAt: knex.fn.now(),
-      updatedAt: knex.fn.now(),
-    });
-  await settleStudy(knex, row.studyId);
+  await knex.transaction(async (trx) => {
+    await trx('injection_trials')
+      .where('id', trialId)
+      .whereIn('status', ['queued', 'running'])
+      .update({
+        status: 'failed',
+        errorMessage:
+          `The trial was started ${attempts} times and its worker stopped each time before it finished ` +
+          '(the worker process ended or the trial exceeded its time limit).',
+        finishedAt: trx.fn.now(),
+        updatedAt: trx.fn.now(),
+      });
+    await settleStudy(trx, row.studyId);
+  });
 }

@@ -90,6 +90,22 @@ describe('injection trials', () => {
     expect((await trialRow(trials[0]!.id)).attempts).toBe(2);
   }, 60_000);
 
+  it('stops a running trial when its study is cancelled, and ends the study cancelled', async () => {
+    const { studyId, trials } = await newStudy();
+    const job = processTrialJob(t.ctx, trials[0]!.id, options);
+    // Cancel as soon as the trial has been claimed (the fit thread takes longer than that to start and fit).
+    for (let i = 0; i < 200 && (await trialRow(trials[0]!.id)).status !== 'running'; i++) {
+      await new Promise((resolve) => setTimeout(resolve, 10));
+    }
+    const cancelled = await owner.post(`/api/runs/${runId}/injection-studies/${studyId}/cancel`);
+    expect(cancelled.status).toBe(200);
+    expect(cancelled.body.status).toBe('running');
+    await job;
+    expect((await trialRow(trials[0]!.id)).status).toBe('cancelled');
+    expect((await trialRow(trials[1]!.id)).status).toBe('cancelled');
+    expect((await studyRow(studyId)).status).toBe('cancelled');
+  }, 60_000);
+
   it('fails the study with a lost trial’s reason (dead letter)', async () => {
     const { studyId, trials } = await newStudy();
     await markTrialLost(t.ctx, trials[0]!.id, 3);

@@ -225,6 +225,23 @@ describe('quick-look picture', () => {
     expect([image.bitmap.width, image.bitmap.height]).toEqual([f.sky.width, f.sky.height]);
   });
 
+  it('answers a repeated request from its ETag with 304, and the same bytes again without it', async () => {
+    const first = await fetchPng('component=model&maxSize=128');
+    const response = await owner.get(`/api/runs/${runId}/quicklook.png?component=model&maxSize=128`);
+    const etag = response.headers.etag as string;
+    expect(etag).toMatch(/^"quicklook-\d+-a{16}-model-128-ember"$/);
+    const again = await owner
+      .get(`/api/runs/${runId}/quicklook.png?component=model&maxSize=128`)
+      .set('if-none-match', etag);
+    expect(again.status).toBe(304);
+    // Another size is another picture.
+    const other = await owner
+      .get(`/api/runs/${runId}/quicklook.png?component=model&maxSize=64`)
+      .set('if-none-match', etag);
+    expect(other.status).toBe(200);
+    expect(Buffer.compare(await fetchPng('component=model&maxSize=128'), first)).toBe(0);
+  });
+
   it('offers exactly the colour maps of the viewer', () => {
     expect([...QUICKLOOK_COLOUR_MAPS]).toEqual([...COLOUR_MAP_NAMES]);
   });

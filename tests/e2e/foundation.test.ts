@@ -2,134 +2,53 @@
  * The foundation journey in a real browser (Debian's Chromium through playwright-core, headless) against
  * the real app: the client built with Vite's build() into a temp folder, the Express app from
  * server/app.ts on a free 127.0.0.1 port, its own migrated database (from `npm test`'s template) and the
- * development SMTP receiver. Sign up, sign out, sign in, create a project, invite a colleague by e-mail
- * (the message must reach the fake mail service and show in the admin's inbox), follow the invitation
- * link as the colleague, sign out. A screenshot of each main page goes to test-artifacts/.
+ * development SMTP receiver, started by tests/e2e/support/browser-app.ts. Sign up, sign out, sign in, create a
+ * project, invite a colleague by e-mail (the message must reach the fake mail service and show in the admin's
+ * inbox), follow the invitation link as the colleague, sign out. A screenshot of each main page goes to
+ * test-artifacts/. No console errors, except the 401 of the deliberately wrong password.
  */
-import { mkdirSync, mkdtempSync, rmSync } from 'node:fs';
-import os from 'node:os';
-import path from 'node:path';
-import { fileURLToPath } from 'node:url';
-
-import { chromium, selectors, type Browser, type BrowserContext, type Page } from 'playwright-core';
-import { build } from 'vite';
+import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
-import { findFreePort } from '../../server/db/postgres-cluster';
-import { listen, startRuntime, type Runtime } from '../../server/runtime';
-import { createUser, mailTo, silentLogger, testConfig } from '../support/test-app';
-import { createTestDatabase, type TestDatabase } from '../support/test-database';
-
-const root = fileURLToPath(new URL('../..', import.meta.url));
-const artifacts = path.join(root, 'test-artifacts', 'foundation');
-// Launch flags from ../shared/STACK.md: without the background-networking ones Chromium keeps trying to reach out.
-const chromiumArgs = [
-  '--headless',
-  '--no-sandbox',
-  '--disable-gpu',
-  '--disable-quic',
-  '--no-first-run',
-  '--disable-background-networking',
-  '--disable-component-update',
-  '--disable-sync',
-];
+import { createUser, mailTo } from '../support/test-app';
+import {
+  type BrowserApp,
+  signIn as signInOn,
+  signOut as signOutOf,
+  startBrowserApp,
+} from './support/browser-app';
 
 const newUser = { email: 'ada.quill@aws.example', displayName: 'Ada Quill', password: 'lyra-deep-field-2' };
 const admin = { email: 'root.admin@aws.example', password: 'admin-password-123' };
 const colleague = 'tomas.verhoeven@example.org';
 const projectName = 'Lyra Deep Field — tile 12';
 
-let clientDir: string;
-let db: TestDatabase;
-let runtime: Runtime;
-let server: { url: string; close(): Promise<void> };
-let browser: Browser;
-let context: BrowserContext;
+let app: BrowserApp;
 let page: Page;
-/** Console errors and failed requests, except the expected 401 of "who is signed in?" when nobody is. */
-const browserProblems: string[] = [];
-let expectingRefusal = false;
 
-async function shot(name: string): Promise<void> {
-  await page.waitForLoadState('networkidle');
-  await page.screenshot({ path: path.join(artifacts, `${name}.png`) });
-}
-
-async function signIn(email: string, password: string): Promise<void> {
-  await page.getByRole('textbox', { name: 'E-mail address', exact: true }).fill(email);
-  await page.getByRole('textbox', { name: 'Password', exact: true }).fill(password);
-  await page.getByRole('button', { name: 'Sign in' }).click();
-  await page.waitForURL(/\/projects$/);
-}
-
-async function signOut(): Promise<void> {
-  await page.getByRole('button', { name: /^Account menu for/ }).click();
-  await page.getByText('Sign out', { exact: true }).click();
-  await page.waitForURL(/\/signin/);
-}
+const shot = (name: string) => app.shot(name);
+const signIn = (email: string, password: string) => signInOn(page, email, password);
+const signOut = () => signOutOf(page);
 
 beforeAll(async () => {
-  mkdirSync(artifacts, { recursive: true });
-  clientDir = mkdtempSync(path.join(os.tmpdir(), 'skysieve-client-'));
-  await build({
-    root,
-    configFile: path.join(root, 'vite.config.ts'),
-    mode: 'production',
-    logLevel: 'warn',
-    build: { outDir: clientDir, emptyOutDir: true },
-  });
-
-  db = await createTestDatabase('e2e');
-  const port = await findFreePort();
-  const config = testConfig({
-    databaseUrl: db.url,
-    port,
-    host: '127.0.0.1',
-    publicUrl: `http://127.0.0.1:${port}`,
-  });
-  runtime = await startRuntime(config, {
-    sessionSecret: 'e2e-session-secret-0123456789',
-    logger: silentLogger,
-  });
-  server = await listen(runtime, { clientDirectory: clientDir });
-  await createUser(runtime.ctx, {
+  app = await startBrowserApp({ artifacts: 'foundation' });
+  page = app.page;
+  await createUser(app.runtime.ctx, {
     email: admin.email,
     displayName: 'Root Admin',
     role: 'admin',
     password: admin.password,
   });
-
-  // The client marks elements for tests with data-test (as the component tests do).
-  selectors.setTestIdAttribute('data-test');
-  browser = await chromium.launch({ executablePath: '/usr/bin/chromium', args: chromiumArgs });
-  context = await browser.newContext({ viewport: { width: 1366, height: 768 }, colorScheme: 'light' });
-  page = await context.newPage();
-  page.on('console', (message) => {
-    if (message.type() !== 'error') return;
-    const url = message.location().url;
-    // Expected: the deliberately wrong password below ("who is signed in?" answers 200 even when nobody is).
-    if (message.text().includes('status of 401') && url.endsWith('/api/auth/login') && expectingRefusal) {
-      expectingRefusal = false;
-      return;
-    }
-    browserProblems.push(`console: ${message.text()} (${url})`);
-  });
-  page.on('pageerror', (error) => browserProblems.push(`page error: ${error.message}`));
 });
 
 afterAll(async () => {
-  await context?.close();
-  await browser?.close();
-  await server?.close();
-  await runtime?.close();
-  await db?.drop();
-  if (clientDir) rmSync(clientDir, { recursive: true, force: true });
+  await app?.close();
 });
 
 describe('foundation journey in the browser', () => {
   it('signs up, signs out and in, creates a project, invites a colleague by e-mail, signs out', async () => {
     // Sign up
-    await page.goto(`${server.url}/signup`);
+    await page.goto(`${app.url}/signup`);
     await expect.poll(() => page.title()).toBe('Create an account · Skysieve');
     await page.getByRole('textbox', { name: 'E-mail address', exact: true }).fill(newUser.email);
     await page.getByRole('textbox', { name: 'Display name', exact: true }).fill(newUser.displayName);
@@ -146,7 +65,7 @@ describe('foundation journey in the browser', () => {
     await signOut();
     await page.getByRole('textbox', { name: 'E-mail address', exact: true }).fill(newUser.email);
     await page.getByRole('textbox', { name: 'Password', exact: true }).fill('not the password');
-    expectingRefusal = true;
+    app.expectRefusal(401, '/api/auth/login');
     await page.getByRole('button', { name: 'Sign in' }).click();
     await expect
       .poll(() => page.locator('.q-notification').first().textContent())
@@ -171,7 +90,7 @@ describe('foundation journey in the browser', () => {
     await expect.poll(() => page.getByTestId('invitation-list').textContent()).toContain(colleague);
     await shot('04-project-page');
 
-    const mails = await mailTo(runtime.ctx, colleague);
+    const mails = await mailTo(app.runtime.ctx, colleague);
     expect(mails, `invitation mails to ${colleague}`).toHaveLength(1);
     const invitationMail = mails[0]!;
     expect(invitationMail.text).toContain(projectName);
@@ -179,14 +98,14 @@ describe('foundation journey in the browser', () => {
     expect(link, `sign-up link in: ${invitationMail.text}`).toBeDefined();
 
     // Account page and tokens (the secret is shown once)
-    await page.goto(`${server.url}/account`);
+    await page.goto(`${app.url}/account`);
     await page.getByTestId('token-name').fill('e2e pipeline');
     await page.getByTestId('token-create').click();
     await expect.poll(() => page.getByTestId('token-secret').textContent()).toContain('shown only once');
     await shot('05-account');
 
     // Dark theme of the project list
-    await page.goto(`${server.url}/projects`);
+    await page.goto(`${app.url}/projects`);
     await page.getByTestId('theme-toggle').first().click();
     await expect
       .poll(() => page.locator('body').evaluate((body) => body.classList.contains('body--dark')))
@@ -199,14 +118,14 @@ describe('foundation journey in the browser', () => {
 
     // The administrator finds the invitation in the development inbox
     await signIn(admin.email, admin.password);
-    await page.goto(`${server.url}/admin/mail`);
+    await page.goto(`${app.url}/admin/mail`);
     await page.getByTestId('mail-list').getByText(`to ${colleague}`).click();
     await expect.poll(() => page.getByTestId('mail-body').textContent()).toContain('/signup?invitation=');
     await shot('08-admin-mail');
-    await page.goto(`${server.url}/admin/users`);
+    await page.goto(`${app.url}/admin/users`);
     await expect.poll(() => page.locator('.q-table').textContent()).toContain(newUser.email);
     await shot('09-admin-users');
-    await page.goto(`${server.url}/admin/audit`);
+    await page.goto(`${app.url}/admin/audit`);
     await expect.poll(() => page.locator('.q-table').textContent()).toContain('invitation.created');
     await shot('10-admin-audit');
     await signOut();
@@ -226,6 +145,6 @@ describe('foundation journey in the browser', () => {
     await expect.poll(() => page.getByTestId('project-link').first().textContent()).toContain(projectName);
     await signOut();
 
-    expect(browserProblems).toEqual([]);
+    expect(app.problems).toEqual([]);
   });
 });

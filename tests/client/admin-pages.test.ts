@@ -222,6 +222,14 @@ describe('AdminStoragePage', () => {
     await settle();
     expect(names()).toEqual(['Aster calibration tiles', 'Lyra Deep Field']);
 
+    // The search matches the project's name or its owner.
+    await projects.get('input').setValue('orrin');
+    await settle();
+    expect(names()).toEqual(['Lyra Deep Field']);
+    await projects.get('input').setValue('calibration');
+    await settle();
+    expect(names()).toEqual(['Aster calibration tiles']);
+
     await wrapper.get('[data-test="admin-page-header"] [data-test="refresh"]').trigger('click');
     await settle();
     expect(api.callsTo('GET /api/admin/storage')).toHaveLength(2);

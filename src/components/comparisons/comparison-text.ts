@@ -5,10 +5,16 @@
  */
 import type { RunCrossMatch } from '@shared/comparisons';
 
-/** A run's column and panel title. */
-export function runLabel(run: { id: number; settings?: Record<string, unknown> }): string {
-  const preset = run.settings?.preset;
-  return typeof preset === 'string' ? `Run ${run.id} (${preset})` : `Run ${run.id}`;
+/**
+ * The runs' column and panel titles: "Run 12", with the preset added when the runs started from different
+ * presets (the table below then shows it anyway, but the panels need it too).
+ */
+export function runLabels(runs: readonly { id: number; settings?: Record<string, unknown> }[]): string[] {
+  const presets = new Set(runs.map((run) => run.settings?.preset));
+  return runs.map((run) => {
+    const preset = run.settings?.preset;
+    return presets.size > 1 && typeof preset === 'string' ? `Run ${run.id} (${preset})` : `Run ${run.id}`;
+  });
 }
 
 /** value ± error with the error to 2 significant digits and the value to the same decimal place. */
@@ -17,7 +23,8 @@ export function withError(value: number | null, error: number | null, unit = '')
   const suffix = unit ? ` ${unit}` : '';
   if (error === null || !Number.isFinite(error) || error <= 0) return `${value.toPrecision(4)}${suffix}`;
   const decimals = Math.max(0, 1 - Math.floor(Math.log10(error)));
-  if (decimals > 10) return `${value.toPrecision(4)} ± ${error.toPrecision(2)}${suffix}`;
+  // Tiny errors (e.g. the same fit twice): significant digits instead of a long row of zeros.
+  if (decimals > 6) return `${value.toPrecision(3)} ± ${error.toPrecision(2)}${suffix}`;
   return `${value.toFixed(decimals)} ± ${error.toFixed(decimals)}${suffix}`;
 }
 
@@ -75,4 +82,32 @@ export function crossMatchCautions(match: RunCrossMatch): string[] {
       'Fluxes are integrated image units × pixels: the image has no per-beam unit to give flux densities.',
     );
   return out;
+}
+
+/** Largest |value| and root mean square of the finite values of a difference plane. */
+export function differenceStatistics(data: Float32Array): { largest: number; rms: number; count: number } {
+  let largest = 0;
+  let sumSquares = 0;
+  let count = 0;
+  for (const value of data) {
+    if (!Number.isFinite(value)) continue;
+    largest = Math.max(largest, Math.abs(value));
+    sumSquares += value * value;
+    count++;
+  }
+  return { largest, rms: count > 0 ? Math.sqrt(sumSquares / count) : 0, count };
+}
+
+/** One line under the difference: its size, or that the two diffuse fields are the same. */
+export function differenceText(data: Float32Array, unit: string | null): string {
+  const { largest, rms, count } = differenceStatistics(data);
+  if (count === 0) return 'The difference has no valid pixels.';
+  if (largest === 0) {
+    return (
+      'The two diffuse fields are identical: the settings that differ act only on the catalogue ' +
+      '(e.g. the detection threshold), not on the fit.'
+    );
+  }
+  const u = unit ? ` ${unit}` : '';
+  return `Largest |difference| ${largest.toPrecision(3)}${u}, RMS ${rms.toPrecision(3)}${u} (over the shown, block-averaged pixels).`;
 }

@@ -77,6 +77,10 @@ describe('ComparisonPage', () => {
       initialStretch: 'linear',
     });
     expect(difference!.props('plane')!.width).toBe(PLANE_WIDTH);
+    // Mock difference: (42 − 43) + (k mod 7)/100 − 0.03, so the largest |value| is 1.03 (Jy/beam, the image unit).
+    expect(wrapper.find('[data-test="difference-note"]').text()).toMatch(
+      /^Largest \|difference\| 1\.03 Jy\/beam/,
+    );
     // Sources found by only one run are marked on the difference.
     expect(difference!.props('sources')).toEqual([
       expect.objectContaining({ id: 'a-4', x: 20, y: 15, label: 'Only in Run 42 (balanced): source 4' }),

@@ -9,7 +9,9 @@ import SkyViewer from '@/components/viewer/SkyViewer.vue';
 import {
   crossMatchCautions,
   crossMatchSummary,
-  runLabel,
+  differenceStatistics,
+  differenceText,
+  runLabels,
   withError,
 } from '@/components/comparisons/comparison-text';
 import { makeCrossMatch } from './comparison-support';
@@ -88,9 +90,20 @@ describe('SettingsDifferenceTable', () => {
 });
 
 describe('comparison text', () => {
-  it('labels runs by id and preset', () => {
-    expect(runLabel({ id: 12, settings: { preset: 'deep-search' } })).toBe('Run 12 (deep-search)');
-    expect(runLabel({ id: 12 })).toBe('Run 12');
+  it('labels runs by id, with the preset only when the presets differ', () => {
+    expect(
+      runLabels([
+        { id: 12, settings: { preset: 'deep-search' } },
+        { id: 13, settings: { preset: 'balanced' } },
+      ]),
+    ).toEqual(['Run 12 (deep-search)', 'Run 13 (balanced)']);
+    expect(
+      runLabels([
+        { id: 12, settings: { preset: 'balanced' } },
+        { id: 13, settings: { preset: 'balanced' } },
+      ]),
+    ).toEqual(['Run 12', 'Run 13']);
+    expect(runLabels([{ id: 12 }])).toEqual(['Run 12']);
   });
   it('rounds a value to the second significant digit of its error', () => {
     expect(withError(0.95238, 0.0311)).toBe('0.952 ± 0.031');
@@ -174,5 +187,22 @@ describe('SkyViewer for differences', () => {
       .findAllComponents({ name: 'QSelect' })
       .find((s) => s.props('label') === 'Colours')!;
     expect(select.props('options')).toEqual([{ label: 'Seesaw (diverging)', value: 'seesaw' }]);
+  });
+});
+
+describe('difference text', () => {
+  it('gives the largest |difference| and the RMS over finite pixels', () => {
+    const data = Float32Array.from([3, -4, NaN, 0]);
+    expect(differenceStatistics(data)).toEqual({ largest: 4, rms: Math.sqrt(25 / 3), count: 3 });
+    expect(differenceText(data, 'Jy/beam')).toBe(
+      'Largest |difference| 4.00 Jy/beam, RMS 2.89 Jy/beam (over the shown, block-averaged pixels).',
+    );
+  });
+  it('says when the diffuse fields are the same, or when nothing is valid', () => {
+    expect(differenceText(new Float32Array(4), null)).toMatch(/^The two diffuse fields are identical/);
+    expect(differenceText(Float32Array.from([NaN]), null)).toBe('The difference has no valid pixels.');
+  });
+  it('uses significant digits for tiny errors', () => {
+    expect(withError(1.2e-9, 1.2e-9, '″')).toBe('1.20e-9 ± 1.2e-9 ″');
   });
 });

@@ -85,6 +85,10 @@ describe('FitChecksPanel', () => {
     expect(traces[0]!.y).toEqual(d.residualHistogram.counts);
     expect(traces[0]!.x[0]).toBeCloseTo(-5.875, 12);
     expect(traces[1]!.y).toEqual(expectedNormalCounts(edges, d.residualHistogram.count));
+    // The Poisson band around it: expected ± √expected.
+    const expectedCounts = expectedNormalCounts(edges, d.residualHistogram.count);
+    expect(traces[3]!.y[24]).toBeCloseTo(expectedCounts[24]! + Math.sqrt(expectedCounts[24]!), 9);
+    expect(traces[2]!.y[24]).toBeCloseTo(expectedCounts[24]! - Math.sqrt(expectedCounts[24]!), 9);
     expect(layout.yaxis.type).toBe('log');
     // From half a pixel up to twice the fullest bin, so the unit normal's far tail does not squeeze the bars.
     const top = Math.max(

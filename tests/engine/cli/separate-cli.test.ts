@@ -204,9 +204,9 @@ describe('npm run separate', () => {
   it.each([
     ['a file that is not an image', ['not-an-image.fits'], /FITS/],
     [
-      'several images',
-      ['small.fits', 'small.fits'],
-      /^Joint fitting of several images is not supported yet: give one image \(got 2\)$/,
+      'a per-image option for an image not given',
+      ['small.fits', 'small.fits', '--sigma', '3:0.1'],
+      /^--sigma 3:… names image 3, but 2 images were given$/,
     ],
     [
       'a settings file with a bad value',

@@ -98,8 +98,15 @@ export function differenceStatistics(data: Float32Array): { largest: number; rms
   return { largest, rms: count > 0 ? Math.sqrt(sumSquares / count) : 0, count };
 }
 
-/** One line under the difference: its size, or that the two diffuse fields are the same. */
-export function differenceText(data: Float32Array, unit: string | null): string {
+/**
+ * One line under the difference: its size, or that the two diffuse fields are the same. With the image's noise σ
+ * it adds that σ for scale, since two MAP estimates give no error map of their difference.
+ */
+export function differenceText(
+  data: Float32Array,
+  unit: string | null,
+  noiseSigma: number | null = null,
+): string {
   const { largest, rms, count } = differenceStatistics(data);
   if (count === 0) return 'The difference has no valid pixels.';
   if (largest === 0) {
@@ -109,5 +116,10 @@ export function differenceText(data: Float32Array, unit: string | null): string 
     );
   }
   const u = unit ? ` ${unit}` : '';
-  return `Largest |difference| ${largest.toPrecision(3)}${u}, RMS ${rms.toPrecision(3)}${u} (over the shown, block-averaged pixels).`;
+  const size = `Largest |difference| ${largest.toPrecision(3)}${u}, RMS ${rms.toPrecision(3)}${u} (over the shown, block-averaged pixels).`;
+  if (noiseSigma === null || !(noiseSigma > 0)) return `${size} No error map of the difference is computed.`;
+  return (
+    `${size} For scale: the image noise σ is ${noiseSigma.toPrecision(3)}${u} per pixel; no error map of the ` +
+    'difference is computed (both fields are MAP estimates).'
+  );
 }

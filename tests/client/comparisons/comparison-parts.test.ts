@@ -195,7 +195,13 @@ describe('difference text', () => {
     const data = Float32Array.from([3, -4, NaN, 0]);
     expect(differenceStatistics(data)).toEqual({ largest: 4, rms: Math.sqrt(25 / 3), count: 3 });
     expect(differenceText(data, 'Jy/beam')).toBe(
-      'Largest |difference| 4.00 Jy/beam, RMS 2.89 Jy/beam (over the shown, block-averaged pixels).',
+      'Largest |difference| 4.00 Jy/beam, RMS 2.89 Jy/beam (over the shown, block-averaged pixels). ' +
+        'No error map of the difference is computed.',
+    );
+    expect(differenceText(data, 'Jy/beam', 0.5)).toBe(
+      'Largest |difference| 4.00 Jy/beam, RMS 2.89 Jy/beam (over the shown, block-averaged pixels). ' +
+        'For scale: the image noise σ is 0.500 Jy/beam per pixel; no error map of the difference is computed ' +
+        '(both fields are MAP estimates).',
     );
   });
   it('says when the diffuse fields are the same, or when nothing is valid', () => {

@@ -19,7 +19,9 @@
  *
  * Gradient (adjoint pass): r = ∂L/∂m on valid pixels (0 elsewhere, padding included), g_t = Kᵀ ⋆ r on the padded
  * grid; ∂/∂φ = g_t ⊙ s; ∂/∂ξ = A ⊙ H(g_t ⊙ s) + ξ; ∂/∂μ = Σ g_t ⊙ s; ∂/∂τ = g_t ⊙ u + α − q e^(−τ).
- * One evaluation: Hartley (1 real FFT), K ⊛ (2), Kᵀ ⋆ (2), Hartley (1): three forward + inverse FFT pairs.
+ * One evaluation: Hartley (1 real FFT), K ⊛ (2), Kᵀ ⋆ (2), Hartley (1): three forward + inverse FFT pairs, plus
+ * five passes over the padded grid and one over the image; u and its prior only at the free compact pixels
+ * (fixCompact), since a stage frees only those near sources.
  */
 import {
   createConvolver,
@@ -88,8 +90,15 @@ export class SeparationModel {
   private precision: FftPrecision = 'float64';
   private convolver: Convolver;
   private hartley: Hartley2d;
-  /** u = exp(clip τ) of the last evaluation (image grid), reused by its gradient pass. */
-  private readonly u: Float64Array;
+  /** u = exp(clip τ) on the padded grid (0 in the padding): of the last evaluation at the free pixels, of the
+   *  last fixCompact call at the others. */
+  private readonly uPadded: Float64Array;
+  /** Free compact pixels (image-grid indices) after fixCompact; null = every pixel is recomputed. */
+  private active: Int32Array | null = null;
+  /** Σ (α τ + q e^(−τ)) over the pixels fixCompact held fixed. */
+  private priorFixed = 0;
+  /** ∂L/∂m on the padded grid; the padding stays 0. */
+  private readonly residualDerivative: Float64Array;
   // workspaces
   readonly phi: Float64Array;
   readonly s: Float64Array;
@@ -111,7 +120,8 @@ export class SeparationModel {
     this.hartley = createHartley2d(this.pw, this.ph, { fft: this.fft });
     this.amplitude = new Float64Array(this.n);
     this.transferPower = kernelTransferPower(setup.kernel, this.pw, this.ph, this.fft);
-    this.u = new Float64Array(this.m);
+    this.uPadded = new Float64Array(this.n);
+    this.residualDerivative = new Float64Array(this.n);
     this.phi = new Float64Array(this.n);
     this.s = new Float64Array(this.n);
     this.total = new Float64Array(this.n);
@@ -185,6 +195,31 @@ export class SeparationModel {
     return this.s;
   }
 
+  /**
+   * Holds the compact pixels outside `active` at their values in `tau` for the evaluations that follow, so that
+   * an evaluation computes u, its prior and its gradient only at the active pixels (a stage that frees a few
+   * percent of them, staged-fit.ts); gTau is then written only there. `active` = null frees every pixel again.
+   * Call it again whenever τ changes outside the active pixels.
+   */
+  fixCompact(tau: Float64Array, active: Int32Array | null): void {
+    const { width, height, pw } = this;
+    const { alpha, q } = this.setup;
+    const free = new Uint8Array(this.m);
+    if (active) for (const i of active) free[i] = 1;
+    let prior = 0;
+    for (let y = 0; y < height; y++) {
+      for (let x = 0; x < width; x++) {
+        const i = y * width + x;
+        const t = this.clipTau(tau[i]!);
+        const u = Math.exp(t);
+        this.uPadded[y * pw + x] = u;
+        if (active && !free[i]) prior += alpha * t + q / u;
+      }
+    }
+    this.active = active;
+    this.priorFixed = active ? prior : 0;
+  }
+
   clipTau(t: number): number {
     return t < this.tauMin ? this.tauMin : t > this.tauMax ? this.tauMax : t;
   }
@@ -209,33 +244,49 @@ export class SeparationModel {
     this.evaluations++;
     const { width, height, pw } = this;
     const { data, valid, noise, alpha, q } = this.setup;
-    const s = this.diffuseField(xi, mu);
-    const total = this.total;
-    const uCache = this.u;
-    total.set(s);
-    let prior = 0;
-    for (let y = 0; y < height; y++) {
-      for (let x = 0; x < width; x++) {
-        const t = this.clipTau(tau[y * width + x]!);
+    const uPadded = this.uPadded;
+    const active = this.active;
+    // compact: u at the free pixels (all of them unless fixCompact chose some) and its prior
+    let prior = this.priorFixed;
+    if (active) {
+      for (let j = 0; j < active.length; j++) {
+        const i = active[j]!;
+        const y = (i / width) | 0;
+        const t = this.clipTau(tau[i]!);
         const u = Math.exp(t);
-        uCache[y * width + x] = u;
-        total[y * pw + x] = total[y * pw + x]! + u;
+        uPadded[i + y * (pw - width)] = u;
         prior += alpha * t + q / u;
       }
+    } else {
+      for (let y = 0; y < height; y++) {
+        for (let x = 0; x < width; x++) {
+          const t = this.clipTau(tau[y * width + x]!);
+          const u = Math.exp(t);
+          uPadded[y * pw + x] = u;
+          prior += alpha * t + q / u;
+        }
+      }
     }
-    prior = addHalfSquares(prior, xi);
+    // diffuse: φ̂ = A ⊙ ξ (with ½ Σ ξ²), φ = μ + H φ̂, s = exp φ, total = s + u
+    prior += phiHatAndHalfSquares(this.amplitude, xi, this.work);
+    this.hartley.transform(this.work, this.phi);
+    const s = this.s;
+    const total = this.total;
+    expPlus(this.phi, mu, s, uPadded, total);
     const model = this.modelPadded;
     this.convolver.apply(total, model);
     // likelihood and its derivative r in the model, on the padded grid (0 outside valid image pixels)
-    const r = this.work2;
-    r.fill(0);
+    const r = this.residualDerivative;
     let like = 0;
     if (noise.kind === 'gaussian') {
       const w = noise.inverseVariance!;
       for (let y = 0; y < height; y++) {
         for (let x = 0; x < width; x++) {
           const i = y * width + x;
-          if (!valid[i]) continue;
+          if (!valid[i]) {
+            r[y * pw + x] = 0;
+            continue;
+          }
           const diff = model[y * pw + x]! - data[i]!;
           like += 0.5 * w[i]! * diff * diff;
           r[y * pw + x] = w[i]! * diff;
@@ -246,7 +297,10 @@ export class SeparationModel {
       for (let y = 0; y < height; y++) {
         for (let x = 0; x < width; x++) {
           const i = y * width + x;
-          if (!valid[i]) continue;
+          if (!valid[i]) {
+            r[y * pw + x] = 0;
+            continue;
+          }
           const lambda = Math.max(model[y * pw + x]!, 0) + eps;
           const d = data[i]!;
           like += lambda - (d > 0 ? d * Math.log(lambda) : 0);
@@ -261,27 +315,37 @@ export class SeparationModel {
     this.convolver.adjoint(r, gt);
     let gMu = 0;
     if (gTau) {
-      for (let y = 0; y < height; y++) {
-        for (let x = 0; x < width; x++) {
-          const i = y * width + x;
-          const raw = tau[i]!;
-          if (raw < this.tauMin || raw > this.tauMax) {
-            gTau[i] = 0;
-            continue;
+      if (active) {
+        for (let j = 0; j < active.length; j++) {
+          const i = active[j]!;
+          const k = i + ((i / width) | 0) * (pw - width);
+          gTau[i] = this.tauGradient(tau[i]!, gt[k]!, uPadded[k]!, blocks.compact);
+        }
+      } else {
+        for (let y = 0; y < height; y++) {
+          for (let x = 0; x < width; x++) {
+            const i = y * width + x;
+            gTau[i] = this.tauGradient(tau[i]!, gt[y * pw + x]!, uPadded[y * pw + x]!, blocks.compact);
           }
-          const u = uCache[i]!; // = exp(raw): raw is inside the clip range here
-          gTau[i] = blocks.compact ? gt[y * pw + x]! * u + alpha - q / u : 0;
         }
       }
     }
     if (gXi && blocks.diffuse) {
-      gMu = productInto(gt, s, r);
-      this.hartley.transform(r, gXi);
+      const product = this.work2;
+      gMu = productInto(gt, s, product);
+      this.hartley.transform(product, gXi);
       amplitudeGradient(this.amplitude, gXi, xi);
     } else if (gXi) {
       gXi.fill(0);
     }
     return [f, gMu];
+  }
+
+  /** ∂f/∂τ of one pixel: gt·u + α − q/u inside the clip range (u = e^τ there), 0 outside or when not free. */
+  private tauGradient(raw: number, gt: number, u: number, free: boolean): number {
+    if (!free || raw < this.tauMin || raw > this.tauMax) return 0;
+    const { alpha, q } = this.setup;
+    return gt * u + alpha - q / u;
   }
 
   /**
@@ -306,10 +370,26 @@ export class SeparationModel {
 // Elementwise passes of the objective, each in its own small function (V8 optimises them better than inside
 // the long evaluate method); the arithmetic and its order are those of the plain loops.
 
-/** acc + Σ ½ ξ². */
-function addHalfSquares(acc: number, xi: Float64Array): number {
-  for (let i = 0; i < xi.length; i++) acc += 0.5 * xi[i]! * xi[i]!;
+/** out = A ⊙ ξ; returns Σ ½ ξ². */
+function phiHatAndHalfSquares(amplitude: Float64Array, xi: Float64Array, out: Float64Array): number {
+  let acc = 0;
+  for (let i = 0; i < xi.length; i++) {
+    const v = xi[i]!;
+    out[i] = amplitude[i]! * v;
+    acc += 0.5 * v * v;
+  }
   return acc;
+}
+
+/** φ += μ; s = exp(min(φ, 700)); total = s + u. */
+function expPlus(phi: Float64Array, mu: number, s: Float64Array, u: Float64Array, total: Float64Array): void {
+  for (let i = 0; i < phi.length; i++) {
+    const p = phi[i]! + mu;
+    phi[i] = p;
+    const e = Math.exp(Math.min(p, 700));
+    s[i] = e;
+    total[i] = e + u[i]!;
+  }
 }
 
 /** out = a ⊙ b; returns Σ a ⊙ b. */

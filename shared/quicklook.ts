@@ -12,7 +12,11 @@ export const quicklookPlaneSchema = z.union([z.literal('data'), componentNameSch
 });
 export type QuicklookPlane = z.infer<typeof quicklookPlaneSchema>;
 
-export const QUICKLOOK_COLOUR_MAPS = ['grey', 'ember', 'tidepool', 'heather', 'frost'] as const;
+/** The viewer's sequential maps and its diverging one (seesaw). */
+export const QUICKLOOK_COLOUR_MAPS = ['grey', 'ember', 'tidepool', 'heather', 'frost', 'seesaw'] as const;
+
+/** Planes of signed values centred on zero: drawn with limits symmetric about zero, linearly, in seesaw. */
+export const SIGNED_QUICKLOOK_PLANES: readonly QuicklookPlane[] = ['residual', 'residualNorm'];
 
 export const quicklookQuerySchema = z.object({
   component: quicklookPlaneSchema.default('data'),
@@ -23,6 +27,7 @@ export const quicklookQuerySchema = z.object({
     .min(64, { error: 'maxSize must be at least 64 pixels.' })
     .max(4096, { error: 'maxSize must be at most 4096 pixels.' })
     .default(1024),
-  colourMap: z.enum(QUICKLOOK_COLOUR_MAPS).default('ember'),
+  /** Default: seesaw for the signed planes, ember for the others. */
+  colourMap: z.enum(QUICKLOOK_COLOUR_MAPS).optional(),
 });
 export type QuicklookQuery = z.output<typeof quicklookQuerySchema>;

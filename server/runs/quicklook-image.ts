@@ -12,6 +12,8 @@
  *   Lupton, Gunn & Szalay (1999), AJ 118, 1406 (src/viewer/stretch.ts), looked up in one of Skysieve's colour
  *   maps (src/viewer/colour-maps.ts). The viewer's own stretch, limits and painter are reused, so the PNG looks
  *   like the sky viewer.
+ * - Signed planes (`signed: true`, for residuals): limits symmetric about zero, ±max(|lower|, |upper|), a linear
+ *   stretch so that zero sits at the middle of the map, and by default the diverging map (seesaw).
  * - North up as usually displayed: PNG row 0 is the last image row (FITS y = height).
  * - Markers: each source is an ellipse with the beam's FWHMs as its axes (each semi-axis at least 3 output
  *   pixels so that a marker stays visible on a reduced picture), position angle from +y towards −x
@@ -59,8 +61,10 @@ export interface QuicklookBeam {
 export interface QuicklookOptions {
   /** Longest side of the picture in pixels. @default 1024 */
   maxSize?: number;
-  /** @default 'ember' */
+  /** @default 'ember', or 'seesaw' for a signed plane */
   colourMap?: ColourMapName;
+  /** The plane holds signed values centred on zero (residuals). @default false */
+  signed?: boolean;
   /** Central share of the valid values between the display limits, percent. @default 99.5 */
   clipPercent?: number;
 }
@@ -139,7 +143,8 @@ export function renderQuicklook(
   beam: QuicklookBeam,
   options: QuicklookOptions = {},
 ): QuicklookRaster {
-  const { maxSize = 1024, colourMap = 'ember', clipPercent = 99.5 } = options;
+  const { maxSize = 1024, clipPercent = 99.5, signed = false } = options;
+  const colourMap = options.colourMap ?? (signed ? 'seesaw' : 'ember');
   if (!(Number.isInteger(maxSize) && maxSize >= 16)) {
     throw new RangeError(`The picture size must be a whole number of at least 16 pixels, got ${maxSize}.`);
   }
@@ -159,8 +164,10 @@ export function renderQuicklook(
   }
   const statistics = orderStatistics(data);
   if (statistics.count === 0) throw new RangeError('The plane has no valid pixels to show.');
-  const limits = clipLimits(statistics, clipPercent);
-  const stretch = makeStretch(limits, { stretch: 'asinh' });
+  const clipped = clipLimits(statistics, clipPercent);
+  const reach = Math.max(Math.abs(clipped.lower), Math.abs(clipped.upper));
+  const limits = signed ? { lower: -reach, upper: reach } : clipped;
+  const stretch = makeStretch(limits, { stretch: signed ? 'linear' : 'asinh' });
   const rgba = paintPlane(
     { width, height, data },
     stretch,

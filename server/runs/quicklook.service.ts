@@ -4,7 +4,7 @@
  */
 import type { Knex } from 'knex';
 
-import type { QuicklookQuery } from '../../shared/quicklook';
+import { type QuicklookQuery, SIGNED_QUICKLOOK_PLANES } from '../../shared/quicklook';
 import type { RunDiagnostics } from '../../shared/runs';
 import { conflict, notFound } from '../http/app-error';
 import { pixelPlane } from '../images/images.service';
@@ -65,7 +65,7 @@ const pictureCache = new ViewCache(32 * 1024 ** 2);
 
 /** The ETag of a run's picture for these parameters (the route answers 304 to it without drawing). */
 export const quicklookEtag = (run: Run, query: QuicklookQuery): string =>
-  `"quicklook-${run.id}-${run.settingsDigest.slice(0, 16)}-${query.component}-${query.maxSize}-${query.colourMap}"`;
+  `"quicklook-${run.id}-${run.settingsDigest.slice(0, 16)}-${query.component}-${query.maxSize}-${query.colourMap ?? 'default'}"`;
 
 export async function quicklookPng(knex: Knex, run: Run, query: QuicklookQuery): Promise<QuicklookPicture> {
   if (run.status !== 'succeeded') {
@@ -86,6 +86,7 @@ export async function quicklookPng(knex: Knex, run: Run, query: QuicklookQuery):
   const raster = renderQuicklook(plane, sources, beam, {
     maxSize: query.maxSize,
     colourMap: query.colourMap,
+    signed: SIGNED_QUICKLOOK_PLANES.includes(query.component),
   });
   const png = await encodeQuicklookPng(raster);
   pictureCache.set(etag, png);

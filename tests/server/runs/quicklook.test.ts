@@ -19,7 +19,11 @@ import { float32ToBytes } from '../../../server/models/run-component';
 import { Run } from '../../../server/models/run';
 import { MARKER_RGB } from '../../../server/runs/quicklook-image';
 import { createToken } from '../../../server/tokens/tokens.service';
-import { COLOUR_MAP_NAMES, colourMapTable } from '../../../src/viewer/colour-maps';
+import {
+  COLOUR_MAP_NAMES,
+  colourMapTable,
+  DIVERGING_COLOUR_MAP_NAMES,
+} from '../../../src/viewer/colour-maps';
 import { type Actor, actors, readStatuses } from '../../support/authorization-actors';
 import {
   BrowserClient,
@@ -82,9 +86,11 @@ async function insertRun(status: 'succeeded' | 'queued'): Promise<number> {
     flags: [],
   });
   const model = float32ToBytes(ramp);
+  const signed = float32ToBytes(ramp.map((x) => (x - 32) / 32));
   const wide = float32ToBytes(Float32Array.from({ length: 200 * 150 }, (_, i) => Math.sin(i / 7)));
   await t.ctx.knex('run_components').insert([
     { runId: run.id, name: 'model', width: 64, height: 64, data: model, byteSize: model.byteLength },
+    { runId: run.id, name: 'residualNorm', width: 64, height: 64, data: signed, byteSize: signed.byteLength },
     { runId: run.id, name: 'residual', width: 200, height: 150, data: wide, byteSize: wide.byteLength },
   ]);
   return run.id;
@@ -210,6 +216,31 @@ describe('quick-look picture', () => {
     }
   });
 
+  it('draws a signed plane linearly between limits symmetric about zero, in the diverging map', async () => {
+    const image = await Jimp.read(await fetchPng('component=residualNorm&maxSize=256'));
+    // Values (x − 32)/32 for columns x = 0 … 63: −1 … 0.96875, each column 1024 times on the 4× picture. The
+    // 0.25 / 99.75 percentiles (ranks 163 and 65 371 of 65 536) are −1 and 0.96875, so the limits become ±1:
+    // zero (column 32) sits in the middle of the map (entry 127.5), 0.96875 at (0.96875 + 1)/2 · 255 ≈ 251.
+    const table = colourMapTable('seesaw');
+    const pixel = (column: number) => [
+      ...image.bitmap.data.subarray(4 * (20 * 256 + column), 4 * (20 * 256 + column) + 3),
+    ];
+    const entry = (k: number) => [table[3 * k]!, table[3 * k + 1]!, table[3 * k + 2]!];
+    expect([entry(127), entry(128)]).toContainEqual(pixel(32 * 4 + 1));
+    // The ends: the most negative column at the map's first entry, the most positive at entry 251 (± 1 for the
+    // painter's tabulated curve).
+    expect(pixel(1)).toEqual(entry(0));
+    expect([entry(250), entry(251), entry(252)]).toContainEqual(pixel(63 * 4 + 1));
+    // A map asked for by name still wins.
+    const ember = await Jimp.read(await fetchPng('component=residualNorm&maxSize=256&colourMap=ember'));
+    const first = colourMapTable('ember');
+    expect([...ember.bitmap.data.subarray(4 * (20 * 256 + 1), 4 * (20 * 256 + 1) + 3)]).toEqual([
+      first[0],
+      first[1],
+      first[2],
+    ]);
+  });
+
   it('block-averages a large plane so that its longer side fits maxSize', async () => {
     const png = await fetchPng('component=residual&maxSize=64');
     // 200 × 150 with maxSize 64: factor ⌈200/64⌉ = 4, so ⌈200/4⌉ × ⌈150/4⌉ = 50 × 38.
@@ -229,7 +260,7 @@ describe('quick-look picture', () => {
     const first = await fetchPng('component=model&maxSize=128');
     const response = await owner.get(`/api/runs/${runId}/quicklook.png?component=model&maxSize=128`);
     const etag = response.headers.etag as string;
-    expect(etag).toMatch(/^"quicklook-\d+-a{16}-model-128-ember"$/);
+    expect(etag).toMatch(/^"quicklook-\d+-a{16}-model-128-default"$/);
     const again = await owner
       .get(`/api/runs/${runId}/quicklook.png?component=model&maxSize=128`)
       .set('if-none-match', etag);
@@ -243,7 +274,7 @@ describe('quick-look picture', () => {
   });
 
   it('offers exactly the colour maps of the viewer', () => {
-    expect([...QUICKLOOK_COLOUR_MAPS]).toEqual([...COLOUR_MAP_NAMES]);
+    expect([...QUICKLOOK_COLOUR_MAPS]).toEqual([...COLOUR_MAP_NAMES, ...DIVERGING_COLOUR_MAP_NAMES]);
   });
 
   it('answers bad parameters, missing planes and unfinished runs with a clear message', async () => {

@@ -274,7 +274,8 @@ function provenanceOf(ctx: AppContext, run: Run, image: StudyImageRow): Catalogu
   };
 }
 
-function download(table: CatalogueTable, base: string, format: 'csv' | 'votable' | 'fits'): Download {
+/** A result table in one of the catalogue formats, as a download. */
+export function download(table: CatalogueTable, base: string, format: 'csv' | 'votable' | 'fits'): Download {
   if (format === 'csv')
     return { contentType: 'text/csv; charset=utf-8', fileName: `${base}.csv`, body: tableToCsv(table) };
   if (format === 'votable') {
@@ -346,7 +347,9 @@ export async function runNumberCounts(
   ).map((row) => row.flux);
   const bins = query.bins ?? 8;
   const edges = typeof bins === 'number' ? logBinEdges(fluxes, bins) : bins;
-  if (edges.length < 2) {
+  // A run that found nothing has no flux range for automatic bins: its counts are an empty list (not an error).
+  const nothing = edges.length < 2 && fluxes.length === 0;
+  if (edges.length < 2 && !nothing) {
     throw new AppError('unprocessable', `Run ${run.id} has no sources with a positive flux to count.`);
   }
   let study: InjectionStudy | undefined;
@@ -368,13 +371,18 @@ export async function runNumberCounts(
   // numberCounts takes steradians; without a celestial WCS the pixel² area goes in instead, so its "per sr"
   // values are per pixel² (and its per-deg² values meaningless, left out).
   const celestial = area.unit === 'deg2';
-  const counted = numberCounts(fluxes, {
-    binEdges: edges,
-    areaSr: celestial ? area.area / DEG2_PER_SR : area.area,
-    completeness: levels
-      ? { flux: levels.map((level) => level.flux), completeness: levels.map((level) => level.completeness) }
-      : undefined,
-  });
+  const counted = nothing
+    ? []
+    : numberCounts(fluxes, {
+        binEdges: edges,
+        areaSr: celestial ? area.area / DEG2_PER_SR : area.area,
+        completeness: levels
+          ? {
+              flux: levels.map((level) => level.flux),
+              completeness: levels.map((level) => level.completeness),
+            }
+          : undefined,
+      });
   const perArea = (v: { value: number; low: number; high: number }, width: number) => ({
     value: v.value * width,
     low: v.low * width,

@@ -260,6 +260,23 @@ describe('number counts against the hand-computed example', () => {
       const response = await owner.get(`/api/runs/${runId}/number-counts?bins=${bins}`);
       expect(response.status, bins).toBe(bins === '5' ? 200 : 400);
     }
+    // A run that found nothing: an empty list, not an error.
+    const empty = await Run.query().insertAndFetch({
+      imageId: f.imageId,
+      projectId: f.project.id,
+      createdBy: f.owner.id,
+      status: 'succeeded',
+      requestedSettings: {},
+      settings: {},
+      settingsDigest: 'c'.repeat(64),
+      attempts: 1,
+      cancelRequested: false,
+      resultBytes: 0,
+      sourceCount: 0,
+    });
+    const none = await owner.get(`/api/runs/${empty.id}/number-counts`);
+    expect(none.status).toBe(200);
+    expect(none.body).toMatchObject({ sources: 0, bins: [], studyId: null });
     const csv = await owner.get(`/api/runs/${runId}/number-counts?bins=1,2,4&format=csv`);
     expect(csv.status).toBe(200);
     expect(csv.text).toContain('dnds_deg2');

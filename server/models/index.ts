@@ -3,6 +3,8 @@ export { AuditEvent } from './audit-event';
 export { Comparison } from './comparison';
 export { DevMail } from './dev-mail';
 export { Image } from './image';
+export { InjectionStudy } from './injection-study';
+export { InjectionTrial } from './injection-trial';
 export { Invitation } from './invitation';
 export { Membership } from './membership';
 export { PasswordReset } from './password-reset';

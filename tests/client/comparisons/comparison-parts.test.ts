@@ -14,6 +14,7 @@ import {
   runLabels,
   withError,
 } from '@/components/comparisons/comparison-text';
+import { fluxScatterFigure } from '@/components/comparisons/flux-scatter-figure';
 import { makeCrossMatch } from './comparison-support';
 
 let wrapper: VueWrapper | null = null;
@@ -210,5 +211,24 @@ describe('difference text', () => {
   });
   it('uses significant digits for tiny errors', () => {
     expect(withError(1.2e-9, 1.2e-9, '″')).toBe('1.20e-9 ± 1.2e-9 ″');
+  });
+});
+
+describe('flux–flux figure', () => {
+  it('uses log axes for positive fluxes and linear ones when a flux is negative', () => {
+    const match = makeCrossMatch();
+    expect((fluxScatterFigure(match, 'A', 'B').layout.xaxis as { type: string }).type).toBe('log');
+    const faint = makeCrossMatch({
+      pairs: [{ ...match.pairs[0]!, a: { ...match.pairs[0]!.a, flux: -0.0004 } }],
+    });
+    const figure = fluxScatterFigure(faint, 'A', 'B');
+    expect((figure.layout.yaxis as { type: string }).type).toBe('linear');
+    // The 1:1 line spans the lowest bar end (−0.0004 − 0.001) to the highest.
+    const line = figure.data[0] as { x: number[] };
+    expect(line.x[0]).toBeCloseTo(-0.0014, 12);
+    expect(line.x[1]).toBeCloseTo(Math.max(0.021 + 0.001, -0.0004 + 0.001), 12);
+    expect(figure.label).toBe(
+      'flux density in A against B for 1 matched sources, with error bars and the 1:1 line',
+    );
   });
 });

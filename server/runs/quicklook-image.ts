@@ -17,7 +17,8 @@
  * - North up as usually displayed: PNG row 0 is the last image row (FITS y = height).
  * - Markers: each source is an ellipse with the beam's FWHMs as its axes (each semi-axis at least 3 output
  *   pixels so that a marker stays visible on a reduced picture), position angle from +y towards −x
- *   (src/viewer/markers.ts), drawn as a ring about 1.5 output pixels wide in MARKER_RGB.
+ *   (src/viewer/markers.ts), drawn as a ring about 1.5 output pixels wide in MARKER_RGB, with a darkened pixel on
+ *   each side so that it stands out on any part of any map.
  */
 import { Jimp } from 'jimp';
 
@@ -33,6 +34,9 @@ export const MARKER_RGB: readonly [number, number, number] = [80, 255, 160];
 /** Smallest semi-axis of a marker in output pixels. */
 export const MIN_MARKER_SEMI_AXIS = 3;
 const RING_HALF_WIDTH = 0.75;
+/** A darkened band of this width on both sides of the ring keeps it visible on light and green parts of a map. */
+const HALO_WIDTH = 1;
+const HALO_SHADE = 0.45;
 const MAX_ZOOM = 4;
 
 export interface QuicklookPlane {
@@ -113,7 +117,7 @@ function drawEllipse(
 ): void {
   // Axis direction in image coordinates (y up); on the raster rows grow downwards.
   const d = majorAxisDirection(paDeg);
-  const reach = semiMajor + RING_HALF_WIDTH + 1;
+  const reach = semiMajor + RING_HALF_WIDTH + HALO_WIDTH + 1;
   const c0 = Math.max(0, Math.floor(centre.column - reach));
   const c1 = Math.min(width - 1, Math.ceil(centre.column + reach));
   const r0 = Math.max(0, Math.floor(centre.row - reach));
@@ -127,8 +131,16 @@ function drawEllipse(
       const radius = Math.hypot(along / semiMajor, across / semiMinor);
       // Distance to the ring in pixels, to first order: (radius − 1) times the local semi-axis.
       const local = radius > 0 ? Math.hypot(along, across) / radius : semiMinor;
-      if (Math.abs(radius - 1) * local > RING_HALF_WIDTH) continue;
+      const distance = Math.abs(radius - 1) * local;
+      if (distance > RING_HALF_WIDTH + HALO_WIDTH) continue;
       const i = 4 * (row * width + column);
+      const isMarker =
+        rgba[i] === MARKER_RGB[0] && rgba[i + 1] === MARKER_RGB[1] && rgba[i + 2] === MARKER_RGB[2];
+      if (distance > RING_HALF_WIDTH) {
+        // The halo, never over another marker's ring.
+        if (!isMarker) for (let k = 0; k < 3; k++) rgba[i + k] = rgba[i + k]! * HALO_SHADE;
+        continue;
+      }
       rgba[i] = MARKER_RGB[0];
       rgba[i + 1] = MARKER_RGB[1];
       rgba[i + 2] = MARKER_RGB[2];

@@ -171,6 +171,12 @@ describe('quick-look picture', () => {
     ];
     for (const [column, row] of onRing) expect(isMarker(at(column, row)), `${column},${row}`).toBe(true);
     for (const [column, row] of offRing) expect(isMarker(at(column, row)), `${column},${row}`).toBe(false);
+    // Just outside the ring (1.5 px beyond it, at 13.5 px along the major axis) the sky is darkened to 45 %, a
+    // halo that keeps the ring visible; the ramp's value depends only on the column, so row 20 shows the same sky.
+    const sky = at(77, 20);
+    const halo = at(77, 124);
+    for (let k = 0; k < 3; k++)
+      expect(Math.abs(halo[k]! - sky[k]! * 0.45), `channel ${k}`).toBeLessThanOrEqual(0.5);
     // The marker colour is not a colour of the map, so marker pixels cannot be sky pixels.
     const table = colourMapTable('ember');
     for (let k = 0; k < 256; k++) {

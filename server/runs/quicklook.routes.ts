@@ -22,7 +22,7 @@ export function quicklookRoutes(ctx: AppContext): AnyRouteSpec[] {
       responses: {
         200: { description: 'image/png' },
         304: { description: 'Not modified (ETag)' },
-        ...errors(404, 409),
+        ...errors(404, 409, 422),
       },
       async handler(req: ApiRequest<unknown, { id: number }, QuicklookQuery>, res: Response) {
         const run = runOf(res);

@@ -6,7 +6,7 @@ import type { Knex } from 'knex';
 
 import { type QuicklookQuery, SIGNED_QUICKLOOK_PLANES } from '../../shared/quicklook';
 import type { RunDiagnostics } from '../../shared/runs';
-import { conflict, notFound } from '../http/app-error';
+import { AppError, conflict, notFound } from '../http/app-error';
 import { pixelPlane } from '../images/images.service';
 import { ViewCache } from '../images/view-cache';
 import { Image } from '../models/image';
@@ -83,6 +83,12 @@ export async function quicklookPng(knex: Knex, run: Run, query: QuicklookQuery):
     beamOf(knex, run, image),
     knex('run_sources').where('runId', run.id).select('x', 'y') as Promise<{ x: number; y: number }[]>,
   ]);
+  if (!plane.data.some((v, i) => Number.isFinite(v) && (!plane.mask || plane.mask[i] === 1))) {
+    throw new AppError(
+      'unprocessable',
+      `The ${query.component} plane of run ${run.id} has no valid pixels, so there is nothing to draw.`,
+    );
+  }
   const raster = renderQuicklook(plane, sources, beam, {
     maxSize: query.maxSize,
     colourMap: query.colourMap,

@@ -87,11 +87,13 @@ async function insertRun(status: 'succeeded' | 'queued'): Promise<number> {
   });
   const model = float32ToBytes(ramp);
   const signed = float32ToBytes(ramp.map((x) => (x - 32) / 32));
+  const blank = float32ToBytes(new Float32Array(16).fill(NaN));
   const wide = float32ToBytes(Float32Array.from({ length: 200 * 150 }, (_, i) => Math.sin(i / 7)));
   await t.ctx.knex('run_components').insert([
     { runId: run.id, name: 'model', width: 64, height: 64, data: model, byteSize: model.byteLength },
     { runId: run.id, name: 'residualNorm', width: 64, height: 64, data: signed, byteSize: signed.byteLength },
     { runId: run.id, name: 'residual', width: 200, height: 150, data: wide, byteSize: wide.byteLength },
+    { runId: run.id, name: 'compactSky', width: 4, height: 4, data: blank, byteSize: blank.byteLength },
   ]);
   return run.id;
 }
@@ -293,6 +295,11 @@ describe('quick-look picture', () => {
     const missing = await owner.get(`/api/runs/${runId}/quicklook.png?component=compact`);
     expect(missing.status).toBe(404);
     expect(missing.body.error.message).toBe(`Run ${runId} has no compact component.`);
+    const empty = await owner.get(`/api/runs/${runId}/quicklook.png?component=compactSky`);
+    expect(empty.status).toBe(422);
+    expect(empty.body.error.message).toBe(
+      `The compactSky plane of run ${runId} has no valid pixels, so there is nothing to draw.`,
+    );
     const queued = await insertRun('queued');
     const early = await owner.get(`/api/runs/${queued}/quicklook.png`);
     expect(early.status).toBe(409);

@@ -103,6 +103,14 @@ export interface FitOptions {
    * @default 'float32'
    */
   precision?: 'float32' | 'float64';
+  /**
+   * Run the diffuse-only first stage on a 2 × 2 binned copy of the image (a quarter of the cost per evaluation)
+   * when the PSF is a Gaussian still at least 1.2 binned pixels wide and the binned image is at least 32 × 32;
+   * the fine fit starts from its field. @default true
+   */
+  coarseStart?: boolean;
+  /** Internal: stop after the diffuse-only stage (the coarse start's own fit). */
+  diffuseOnly?: boolean;
   onProgress?: (p: FitProgress) => void;
   signal?: AbortSignal;
 }
@@ -129,11 +137,16 @@ export interface FitResult {
   fluxErrorScale: number;
   spectrum: SpectrumParameters & { estimated: boolean; binned: BinnedPower };
   iterations: number;
+  /** Objective evaluations on the full-resolution grid. */
   evaluations: number;
+  /** Evaluations of the coarse start (on a grid with a quarter of the pixels); 0 without one. */
+  coarseEvaluations: number;
   objective: number;
   converged: boolean;
   trace: { stage: string; iteration: number; objective: number; gradNorm: number }[];
   seedsPerRound: number[];
+  /** φ = μ + H(A ⊙ ξ) on the padded grid at the end. */
+  logDiffusePadded: Float64Array;
 }
 
 /** Padded grid side: room for the diffuse field beyond the edge (≥ 20% of the side, and ≥ 4 FWHM + 8 px). */
@@ -253,6 +266,114 @@ function rmsChange(
     }
   }
   return count > 0 ? Math.sqrt(sumSq / count) : 0;
+}
+
+/**
+ * The image binned 2 × 2 for the coarse start: sums of four pixels (a block is valid when all four are), the
+ * noise of the sum (σ² added; Poisson stays Poisson), the PSF at half the width in pixels (the Gaussian is
+ * integrated over the larger pixels by psfKernelOnGrid). Null when the start would not help or not be sound.
+ */
+export function binnedInput(input: FitInput): FitInput | null {
+  const { width, height, data, valid, psf, noise } = input;
+  if (psf.kind !== 'gaussian' || psf.fwhmMinorPx / 2 < 1.2) return null;
+  const wc = Math.floor(width / 2);
+  const hc = Math.floor(height / 2);
+  if (wc < 32 || hc < 32) return null;
+  const dataC = new Float64Array(wc * hc);
+  const validC = new Uint8Array(wc * hc);
+  const sigmaC = noise.kind === 'gaussian' && typeof noise.sigma !== 'number' ? new Float64Array(wc * hc) : null;
+  let validCount = 0;
+  for (let yc = 0; yc < hc; yc++) {
+    for (let xc = 0; xc < wc; xc++) {
+      let sum = 0;
+      let variance = 0;
+      let ok = true;
+      for (let dy = 0; dy < 2; dy++) {
+        for (let dx = 0; dx < 2; dx++) {
+          const i = (2 * yc + dy) * width + 2 * xc + dx;
+          if (!valid[i]) ok = false;
+          sum += data[i]!;
+          if (sigmaC) variance += (noise as { sigma: Float64Array }).sigma[i]! ** 2;
+        }
+      }
+      const j = yc * wc + xc;
+      validC[j] = ok ? 1 : 0;
+      dataC[j] = ok ? sum : 0;
+      if (sigmaC) sigmaC[j] = ok ? Math.sqrt(variance) : 0;
+      if (ok) validCount++;
+    }
+  }
+  if (validCount < 0.25 * wc * hc) return null;
+  return {
+    width: wc,
+    height: hc,
+    data: dataC,
+    valid: validC,
+    noise:
+      noise.kind === 'poisson'
+        ? noise
+        : { kind: 'gaussian', sigma: sigmaC ?? 2 * (noise.sigma as number) },
+    psf: { ...psf, fwhmMajorPx: psf.fwhmMajorPx / 2, fwhmMinorPx: psf.fwhmMinorPx / 2 },
+  };
+}
+
+/** P(k) of the power law (spectrum.ts) at one wavenumber. */
+function powerAt(p: SpectrumParameters, k: number): number {
+  return p.amplitude * Math.pow(k * k + p.turnover * p.turnover, -p.slope / 2);
+}
+
+/**
+ * Brings the coarse start's φ up to this grid: φ(x, y) = φ_coarse((x − ½)/2, (y − ½)/2) − ln 4 (bilinear,
+ * periodic; a coarse pixel holds the sum of four), then ξ = A·ĥ/(A² + floor) with ĥ = H(φ − μ) (a Wiener
+ * filter, so modes the coarse stage could not represent stay near 0). Writes ξ, returns μ (the mean of φ).
+ */
+function upsampledStart(
+  coarse: FitResult,
+  xi: Float64Array,
+  grid: {
+    pw: number;
+    ph: number;
+    hartley: (input: Float64Array, output: Float64Array) => void;
+    amplitude: Float64Array;
+    floor: number;
+  },
+): number {
+  const { pw, ph } = grid;
+  const cw = coarse.paddedWidth;
+  const chh = coarse.paddedHeight;
+  const phiC = coarse.logDiffusePadded;
+  const phi = new Float64Array(pw * ph);
+  const ln4 = Math.log(4);
+  let mean = 0;
+  for (let y = 0; y < ph; y++) {
+    const fy = (y - 0.5) / 2;
+    const y0 = Math.floor(fy);
+    const ty = fy - y0;
+    const ya = ((y0 % chh) + chh) % chh;
+    const yb = (ya + 1) % chh;
+    for (let x = 0; x < pw; x++) {
+      const fx = (x - 0.5) / 2;
+      const x0 = Math.floor(fx);
+      const tx = fx - x0;
+      const xa = ((x0 % cw) + cw) % cw;
+      const xb = (xa + 1) % cw;
+      const v =
+        (1 - ty) * ((1 - tx) * phiC[ya * cw + xa]! + tx * phiC[ya * cw + xb]!) +
+        ty * ((1 - tx) * phiC[yb * cw + xa]! + tx * phiC[yb * cw + xb]!) -
+        ln4;
+      phi[y * pw + x] = v;
+      mean += v;
+    }
+  }
+  mean /= pw * ph;
+  for (let i = 0; i < phi.length; i++) phi[i] = phi[i]! - mean;
+  const hat = new Float64Array(pw * ph);
+  grid.hartley(phi, hat);
+  for (let i = 0; i < hat.length; i++) {
+    const a = grid.amplitude[i]!;
+    xi[i] = a > 0 ? (a * hat[i]!) / (a * a + grid.floor) : 0;
+  }
+  return mean;
 }
 
 function median(values: number[]): number {
@@ -586,14 +707,50 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     // The early stages only prepare the start of the next one: looser tolerances and shorter budgets.
     const early = Math.max(1, Math.round(maxIterations / 3));
     model.setPrecision(precision);
-    setSpectrum(kc);
-    runStage('diffuse', { diffuse: true, compact: false }, 10 * absoluteDecrease, early, 5 * changeTolerance);
-    updateSpectrum(kc / 2, kc);
-    runStage('diffuse', { diffuse: true, compact: false }, 10 * absoluteDecrease, early, 5 * changeTolerance);
+    // (not with a user-fixed amplitude: that is per mode of this grid)
+    const coarseInput =
+      options.coarseStart === false || options.diffuseOnly || options.spectrum?.amplitude != null
+        ? null
+        : binnedInput(input);
+    let coarseEvaluations = 0;
+    if (coarseInput) {
+      // Stage 1 on the 2 × 2 binned image, then its field brought up to this grid.
+      const coarse = stagedFit(coarseInput, {
+        ...options,
+        diffuseOnly: true,
+        onProgress: options.onProgress
+          ? (p) => options.onProgress?.({ ...p, stage: `${p.stage}-coarse` })
+          : undefined,
+      });
+      coarseEvaluations = coarse.evaluations;
+      iterations += coarse.iterations;
+      for (const t of coarse.trace) trace.push({ ...t, stage: `${t.stage}-coarse` });
+      // per-mode power at the same physical wavenumber is 4× larger on this grid, and k in cycles per pixel is
+      // half as large: a = a_coarse · 4 / 2^γ (spectrum.ts: P = a (k² + k0²)^(−γ/2))
+      spectrum = {
+        amplitude: (coarse.spectrum.amplitude * 4) / 2 ** coarse.spectrum.slope,
+        slope: coarse.spectrum.slope,
+        turnover,
+      };
+      setSpectrum(kc);
+      mu = upsampledStart(coarse, xi, {
+        pw,
+        ph,
+        hartley: (a, b) => model.hartleyTransform(a, b),
+        amplitude: model.amplitude,
+        // Wiener floor: the tapered power at 1.5 kc, so scales the coarse stage did not fit stay near 0
+        floor: powerAt(spectrum, 1.5 * kc) * Math.exp(-(1.5 ** 2)),
+      });
+    } else {
+      setSpectrum(kc);
+      runStage('diffuse', { diffuse: true, compact: false }, 10 * absoluteDecrease, early, 5 * changeTolerance);
+      updateSpectrum(kc / 2, kc);
+      runStage('diffuse', { diffuse: true, compact: false }, 10 * absoluteDecrease, early, 5 * changeTolerance);
+    }
     // Stage 2: full spectrum.
-    updateSpectrum(kc / 2, null);
+    if (!options.diffuseOnly) updateSpectrum(kc / 2, null);
     const residual = new Float64Array(m);
-    for (let round = 1; round <= seedRounds; round++) {
+    for (let round = 1; round <= (options.diffuseOnly ? 0 : seedRounds); round++) {
       model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
       model.curvature(weight);
       for (let y = 0; y < height; y++) {
@@ -621,7 +778,9 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       runStage(`joint-${round}`, { diffuse: true, compact: true }, 5 * absoluteDecrease, early, 5 * changeTolerance);
       updateSpectrum(kc / 2, null);
     }
-    runStage('final', { diffuse: true, compact: true }, absoluteDecrease, maxIterations, changeTolerance);
+    if (!options.diffuseOnly) {
+      runStage('final', { diffuse: true, compact: true }, absoluteDecrease, maxIterations, changeTolerance);
+    }
 
     // Components on the image grid.
     model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
@@ -663,10 +822,12 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       spectrum: { ...spectrum, estimated: estimateSpectrum, binned },
       iterations,
       evaluations: model.evaluations,
+      coarseEvaluations,
       objective,
       converged,
       trace,
       seedsPerRound,
+      logDiffusePadded: Float64Array.from(model.phi),
     };
   } finally {
     model.dispose();

@@ -4,6 +4,7 @@ import ComparisonPage from '@/pages/ComparisonPage.vue';
 import SkyViewer from '@/components/viewer/SkyViewer.vue';
 import { apiError, type MockRequest } from '../support/api-mock';
 import { makeUser } from '../support/fixtures';
+import { makeSource } from '../runs/runs-support';
 import { mountPage, notifications, pageText, settle, unmountAll } from '../support/mount';
 import {
   makeComparison,
@@ -26,6 +27,15 @@ function routes(overrides: Record<string, unknown> = {}) {
   return {
     'GET /api/comparisons/:id': { body: makeComparison() },
     'GET /api/comparisons/:id/cross-match': { body: makeCrossMatch() },
+    'GET /api/runs/:id/sources': (request: MockRequest) => ({
+      body: {
+        sources: [makeSource({ id: Number(request.params.id) - 40, x: 5, y: 6, flux: 0.01, fluxErr: 0.001 })],
+        page: 1,
+        pageSize: Number(request.query.get('pageSize')),
+        total: request.params.id === '43' ? 1500 : 1,
+        caution: 'Model-dependent catalogue.',
+      },
+    }),
     ...overrides,
   };
 }
@@ -86,6 +96,24 @@ describe('ComparisonPage', () => {
       expect.objectContaining({ id: 'a-4', x: 20, y: 15, label: 'Only in Run 42 (balanced): source 4' }),
     ]);
     api.expectNoUnexpectedCalls();
+  });
+
+  it("marks each run's own sources on its panel, and can hide them", async () => {
+    const { api, wrapper } = await open();
+    const queries = api.callsTo('GET /api/runs/:id/sources').map((call) => `${call.path}?${call.query}`);
+    expect(queries.sort()).toEqual([
+      '/api/runs/42/sources?page=1&pageSize=1000&sort=-snr',
+      '/api/runs/43/sources?page=1&pageSize=1000&sort=-snr',
+    ]);
+    const panels = () => wrapper.findAllComponents(SkyViewer).slice(0, 2);
+    expect(
+      panels().map((viewer) => viewer.props('sources').map((m: { id: number; label: string }) => m.label)),
+    ).toEqual([['Run 42 (balanced): source 2'], ['Run 43 (deep-search): source 3']]);
+    // Run 43 has more sources than are marked: the page says so.
+    expect(pageText()).toContain('Markers show the 1000 sources of highest SNR of Run 43 (deep-search).');
+    await wrapper.find('[data-test="show-sources"]').trigger('click');
+    await settle();
+    expect(panels().map((viewer) => viewer.props('sources'))).toEqual([[], []]);
   });
 
   it('links pan, zoom and cursor between every viewer', async () => {
@@ -209,6 +237,29 @@ describe('ComparisonPage', () => {
     await settle();
     expect(api.planeCalls.some((call) => call.path === '/api/runs/42/components/compact')).toBe(true);
     api.expectNoUnexpectedCalls();
+  });
+
+  it('deletes after a confirmation and goes back to the project', async () => {
+    const { api, wrapper, router } = await open('editor', { 'DELETE /api/comparisons/:id': { status: 204 } });
+    await wrapper.find('[data-test="delete-comparison"]').trigger('click');
+    await settle();
+    expect(pageText()).toContain('The runs themselves stay; only this saved comparison goes.');
+    const confirm = [...document.querySelectorAll<HTMLButtonElement>('.q-dialog button')].find(
+      (button) => button.textContent?.trim() === 'Delete',
+    );
+    confirm!.click();
+    await settle();
+    expect(api.callsTo('DELETE /api/comparisons/:id').map((call) => call.path)).toEqual([
+      '/api/comparisons/5',
+    ]);
+    expect(router.currentRoute.value.fullPath).toBe('/projects/7');
+    expect(notifications().join(' ')).toContain('Comparison deleted.');
+  });
+
+  it('lets the member who saved it delete it even as a viewer', async () => {
+    const { wrapper } = await open('viewer', {}, editor);
+    expect(wrapper.find('[data-test="delete-comparison"]').exists()).toBe(true);
+    expect(wrapper.find('[data-test="comparison-rename"]').exists()).toBe(false);
   });
 
   it('copies its own address as the link to share', async () => {

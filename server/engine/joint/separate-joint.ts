@@ -64,6 +64,8 @@ export interface JointOptions {
   gridFactor?: number;
   /** @default true */
   fitScales?: boolean;
+  /** Stage change test in σ (joint-fit.ts). @default 0.02 */
+  changeTolerance?: number;
   onProgress?: (p: {
     stage: string;
     iteration: number;
@@ -385,6 +387,7 @@ export async function separateJoint(
       absoluteDecrease: settings.absoluteDecrease,
       scalePriorWidth,
       fitScales: options.fitScales,
+      changeTolerance: options.changeTolerance,
       onProgress: options.onProgress,
       signal: options.signal,
     },

@@ -167,3 +167,18 @@ export function countsExportUrl(runId: number, bins: string, format: 'csv' | 'vo
   if (bins.trim() !== '') query.set('bins', bins.trim());
   return `/api/runs/${id(runId)}/number-counts?${query.toString()}`;
 }
+
+/**
+ * Flux of an isolated point source at `snr` for the form's hint: SNR · σ / √Σpsf², with Σpsf² of a well-sampled
+ * Gaussian PSF = 1/(4π s_major s_minor), s = FWHM / (2√(2 ln 2)) (the Gaussian integral; the server uses the
+ * pixel-integrated PSF, a little different for PSFs of a few pixels).
+ */
+export function isolatedSourceFlux(
+  snr: number,
+  sigma: number,
+  fwhmMajorPx: number,
+  fwhmMinorPx: number,
+): number {
+  const perFwhm = 1 / (2 * Math.sqrt(2 * Math.LN2));
+  return snr * sigma * Math.sqrt(4 * Math.PI * fwhmMajorPx * perFwhm * fwhmMinorPx * perFwhm);
+}

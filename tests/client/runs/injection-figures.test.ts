@@ -5,6 +5,7 @@ import {
   completenessFigure,
   countsExportUrl,
   fluxBiasFigure,
+  isolatedSourceFlux,
   numberCountsFigure,
   parseLevels,
   studyExportUrl,
@@ -120,5 +121,14 @@ describe('export links', () => {
     expect(countsExportUrl(4, ' 0.1,0.2 ', 'fits')).toBe(
       '/api/runs/4/number-counts?format=fits&bins=0.1%2C0.2',
     );
+  });
+});
+
+describe('isolated source flux (form hint)', () => {
+  it('is SNR · σ · √(4π s²) for a round Gaussian, s = FWHM / 2.3548', () => {
+    // FWHM 3 px → s = 1.27398 px; √(4π) · s = 4.51620; SNR 5, σ = 1e-4 → 2.2581e-3.
+    expect(isolatedSourceFlux(5, 1e-4, 3, 3)).toBeCloseTo(2.2581e-3, 6);
+    // Elliptical: the geometric mean of the axes counts.
+    expect(isolatedSourceFlux(5, 1e-4, 6, 1.5)).toBeCloseTo(isolatedSourceFlux(5, 1e-4, 3, 3), 15);
   });
 });

@@ -6,6 +6,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { modeWavenumbers, powerLawSpectrum } from '../../../server/engine/fit/spectrum';
+import { conjugateGradient } from '../../../server/engine/joint/joint-fit';
 import { JointModel, type JointImageTerm } from '../../../server/engine/joint/joint-model';
 import { buildResampler } from '../../../server/engine/joint/resample';
 import { psfFromFwhm, psfKernelOnGrid } from '../../../server/engine/psf';
@@ -151,5 +152,93 @@ describe('JointModel gradient', () => {
       }
     expect(sum(coarse) / 1.7).toBeCloseTo(expectedCoarse, 10);
     model.dispose();
+  });
+
+  it('has a Gauss–Newton Hessian equal to the finite-difference Hessian where the residual is zero (Gaussian)', () => {
+    const model = makeModel('gaussian');
+    const rand = lcg(21);
+    const xi = Float64Array.from({ length: model.n }, () => 0.3 * (rand() - 0.5));
+    const tau = Float64Array.from({ length: model.m }, () => Math.log(0.1 + 2 * rand()));
+    const ell = Float64Array.from([0, 0.03]);
+    const mu = Math.log(2.5);
+    const none = { diffuse: false, compact: false, scales: false };
+    // data = the model itself, so the likelihood's second derivative is exactly JᵀWJ
+    model.evaluate(xi, mu, tau, ell, none, null, null, null);
+    for (let i = 0; i < 2; i++) model.setup.images[i]!.data.set(model.work[i]!.model);
+    model.evaluate(xi, mu, tau, ell, none, null, null, null);
+    const u = Float64Array.from(tau, (t) => Math.exp(model.clipTau(t)));
+    const dim = model.n + 1 + model.m;
+    const v = Float64Array.from({ length: dim }, () => rand() - 0.5);
+    const hv = new Float64Array(dim);
+    model.hessianVector(ell, u, v, hv);
+    const cross = new Float64Array(dim);
+    model.crossColumn(1, ell, u, cross);
+    // gradient along x + h v, central differences
+    const blocks = { diffuse: true, compact: true, scales: true };
+    const gradient = (h: number) => {
+      const x = Float64Array.from(xi, (q, i) => q + h * v[i]!);
+      const t = Float64Array.from(tau, (q, i) => q + h * v[model.n + 1 + i]!);
+      const gXi = new Float64Array(model.n);
+      const gTau = new Float64Array(model.m);
+      const gEll = new Float64Array(2);
+      const [, gMu] = model.evaluate(x, mu + h * v[model.n]!, t, ell, blocks, gXi, gTau, gEll);
+      const g = new Float64Array(dim);
+      g.set(gXi);
+      g[model.n] = gMu;
+      g.set(gTau, model.n + 1);
+      return { g, gEll: gEll[1]! };
+    };
+    const h = 1e-5;
+    const plus = gradient(h);
+    const minus = gradient(-h);
+    let worst = 0;
+    let scale = 0;
+    for (let i = 0; i < dim; i++) {
+      const fd = (plus.g[i]! - minus.g[i]!) / (2 * h);
+      worst = Math.max(worst, Math.abs(fd - hv[i]!));
+      scale = Math.max(scale, Math.abs(fd));
+    }
+    expect(worst / scale).toBeLessThan(1e-5);
+    // ∂(∂F/∂ℓ)/∂x · v = crossᵀ v
+    const fdCross = (plus.gEll - minus.gEll) / (2 * h);
+    const dot = cross.reduce((s, c, i) => s + c * v[i]!, 0);
+    expect(Math.abs(fdCross - dot)).toBeLessThan(1e-5 * Math.max(1, Math.abs(dot)));
+    model.dispose();
+  });
+
+  it('solves a preconditioned system by conjugate gradients (against a direct solve)', () => {
+    const k = 6;
+    const rand = lcg(5);
+    const m = Array.from({ length: k * k }, () => rand() - 0.5);
+    // A = MᵀM + diag(1…6): symmetric positive definite
+    const a = new Float64Array(k * k);
+    for (let i = 0; i < k; i++)
+      for (let j = 0; j < k; j++) {
+        let s = i === j ? i + 1 : 0;
+        for (let t = 0; t < k; t++) s += m[t * k + i]! * m[t * k + j]!;
+        a[i * k + j] = s;
+      }
+    const b = Float64Array.from({ length: k }, () => rand());
+    const { solution, quadratic } = conjugateGradient(
+      (v, out) => {
+        for (let i = 0; i < k; i++) {
+          let s = 0;
+          for (let j = 0; j < k; j++) s += a[i * k + j]! * v[j]!;
+          out[i] = s;
+        }
+      },
+      b,
+      Float64Array.from({ length: k }, (_, i) => 1 / Math.sqrt(a[i * k + i]!)),
+      { maxIterations: 50, relativeChange: 1e-14 },
+    );
+    for (let i = 0; i < k; i++) {
+      let s = 0;
+      for (let j = 0; j < k; j++) s += a[i * k + j]! * solution[j]!;
+      expect(s).toBeCloseTo(b[i]!, 8);
+    }
+    expect(quadratic).toBeCloseTo(
+      b.reduce((s, v, i) => s + v * solution[i]!, 0),
+      10,
+    );
   });
 });

@@ -18,20 +18,32 @@ export interface TrialJobData {
   trialId: number;
 }
 
-const created = new WeakSet<PgBoss>();
+const created = new WeakMap<PgBoss, Promise<void>>();
 
-/** Makes sure both injection queues exist on this pg-boss instance (pg-boss 10 needs createQueue first). */
-export async function ensureInjectionQueues(boss: PgBoss, options: ResolvedQueueOptions): Promise<void> {
-  if (created.has(boss)) return;
-  await boss.createQueue(INJECTION_DEAD_LETTER_QUEUE, { name: INJECTION_DEAD_LETTER_QUEUE, retryLimit: 0 });
-  await boss.createQueue(INJECTION_QUEUE, {
-    name: INJECTION_QUEUE,
-    retryLimit: options.retryLimit,
-    retryDelay: options.retryDelaySeconds,
-    expireInSeconds: options.expireInSeconds,
-    deadLetter: INJECTION_DEAD_LETTER_QUEUE,
-  });
-  created.add(boss);
+/**
+ * Makes sure both injection queues exist on this pg-boss instance (pg-boss 10 needs createQueue first); once per
+ * instance, and concurrent first callers share the one attempt.
+ */
+export function ensureInjectionQueues(boss: PgBoss, options: ResolvedQueueOptions): Promise<void> {
+  let ready = created.get(boss);
+  if (!ready) {
+    ready = (async () => {
+      await boss.createQueue(INJECTION_DEAD_LETTER_QUEUE, {
+        name: INJECTION_DEAD_LETTER_QUEUE,
+        retryLimit: 0,
+      });
+      await boss.createQueue(INJECTION_QUEUE, {
+        name: INJECTION_QUEUE,
+        retryLimit: options.retryLimit,
+        retryDelay: options.retryDelaySeconds,
+        expireInSeconds: options.expireInSeconds,
+        deadLetter: INJECTION_DEAD_LETTER_QUEUE,
+      });
+    })();
+    created.set(boss, ready);
+    ready.catch(() => created.delete(boss));
+  }
+  return ready;
 }
 
 /** The server's side: queue trials, withdraw queued ones. */

@@ -447,6 +447,73 @@ describe('cross-match of the catalogues', () => {
   });
 });
 
+describe('cross-match of an image without a celestial WCS', () => {
+  let match: RunCrossMatch;
+  let pixelRuns: number[] = [];
+  let sources: CatalogueSource[][] = [];
+  beforeAll(async () => {
+    // The same kind of field with its WCS and beam cards removed: positions are pixels only.
+    const sky = smallSky(41);
+    const celestial = /^(CTYPE|CRPIX|CRVAL|CDELT|CUNIT|RADESYS|BMAJ|BMIN|BPA)/;
+    const plain = { ...sky, header: sky.header.filter((card) => !celestial.test(card.keyword)) };
+    const imageId = await storeImage(t.ctx, f.project.id, f.owner, plain, 'lyra-pixels.fits');
+    pixelRuns = [];
+    for (const settings of [fastSettings, { ...fastSettings, compactAlpha: 2.5 }]) {
+      const response = await owner.post(`/api/images/${imageId}/runs`, { settings });
+      expect(response.status, JSON.stringify(response.body)).toBe(202);
+      pixelRuns.push(response.body.id as number);
+    }
+    for (const id of pixelRuns) {
+      const done = await waitForRun(
+        (path) => owner.get(path),
+        id,
+        (body) => ['succeeded', 'failed', 'cancelled'].includes(body.status),
+      );
+      expect(done.status, JSON.stringify(done.errorMessage)).toBe('succeeded');
+    }
+    const comparison = await saved(pixelRuns);
+    const response = await viewer.get(
+      `/api/comparisons/${comparison.id}/cross-match?a=${pixelRuns[0]}&b=${pixelRuns[1]}`,
+    );
+    expect(response.status, JSON.stringify(response.body)).toBe(200);
+    match = response.body as RunCrossMatch;
+    sources = await Promise.all(
+      pixelRuns.map(
+        async (id) =>
+          (await viewer.get(`/api/runs/${id}/sources?pageSize=1000&sort=id`)).body
+            .sources as CatalogueSource[],
+      ),
+    );
+  }, 90_000);
+
+  it('matches by pixel position within half the fitted PSF FWHM', async () => {
+    expect(sources[0]!.every((s) => s.ra === null && s.dec === null)).toBe(true);
+    expect(match).toMatchObject({ mode: 'pixel', unit: 'pixel', radiusSource: 'psf' });
+    const diagnostics = (await owner.get(`/api/runs/${pixelRuns[0]}`)).body.diagnostics as {
+      psfFwhmPx: { major: number; minor: number };
+    };
+    expect(match.radius).toBeCloseTo(
+      0.5 * Math.sqrt(diagnostics.psfFwhmPx.major * diagnostics.psfFwhmPx.minor),
+      12,
+    );
+    expect(match.counts.matched + match.counts.onlyA).toBe(sources[0]!.length);
+    expect(match.counts.matched + match.counts.onlyB).toBe(sources[1]!.length);
+    // Jy/beam with the PSF given: flux densities exist (flux / beam area in pixels) even without a WCS.
+    const densities = [...sources[0]!, ...sources[1]!].every((s) => s.fluxDensity !== null);
+    expect(match.fluxKind).toBe(densities ? 'fluxDensity' : 'flux');
+    const byId = new Map(sources[0]!.map((s) => [s.id, s]));
+    for (const pair of match.pairs) {
+      const a = byId.get(pair.a.id)!;
+      expect([pair.a.flux, pair.a.fluxErr]).toEqual(
+        densities ? [a.fluxDensity, a.fluxDensityErr] : [a.flux, a.fluxErr],
+      );
+      expect(pair.separation).toBeCloseTo(Math.hypot(pair.a.x - pair.b.x, pair.a.y - pair.b.y), 12);
+      expect(pair.separation).toBeLessThanOrEqual(match.radius);
+    }
+    expect(match.pairs.length).toBeGreaterThan(0);
+  });
+});
+
 /** Haversine great-circle distance in arcsec (Sinnott 1984), written out again here. */
 function haversineArcsec(
   a: { ra: number | null; dec: number | null },

@@ -247,6 +247,39 @@ describe('RunCompletenessPage', () => {
     api.expectNoUnexpectedCalls();
   });
 
+  it('deletes a finished study after a confirmation', async () => {
+    const study = makeStudy();
+    let deleted = false;
+    const api = mockRunsApi({
+      'GET /api/runs/:id': { body: makeFinishedRun() },
+      'GET /api/runs/:id/injection-studies': () => ({ body: { studies: deleted ? [] : [summary(study)] } }),
+      'GET /api/runs/:id/injection-studies/:studyId': { body: study },
+      'DELETE /api/runs/:id/injection-studies/:studyId': () => {
+        deleted = true;
+        return { status: 204 };
+      },
+      'GET /api/runs/:id/number-counts': { body: counts },
+    });
+    const { wrapper } = await mountPage(RunCompletenessPage, { path: '/runs/42/completeness', user });
+    await settle();
+    await wrapper.get('[data-test="delete-study"]').trigger('click');
+    await settle();
+    expect(pageText()).toContain('Its trials and results are removed; the run itself stays.');
+    const ok = [...document.querySelectorAll('.q-dialog button')].find((b) =>
+      b.textContent?.includes('Delete'),
+    );
+    (ok as HTMLButtonElement).click();
+    await settle();
+    await vi.waitFor(() =>
+      expect(api.callsTo('DELETE /api/runs/:id/injection-studies/:studyId')).toHaveLength(1),
+    );
+    expect(api.callsTo('DELETE /api/runs/:id/injection-studies/:studyId')[0]!.path).toBe(
+      '/api/runs/42/injection-studies/5',
+    );
+    await vi.waitFor(() => expect(pageText()).toContain('No injection study of this run yet.'));
+    api.expectNoUnexpectedCalls();
+  });
+
   it('shows a failed study with its message, and no form for viewers', async () => {
     const failed = makeStudy({
       status: 'failed',

@@ -5,7 +5,7 @@
  * The sky: samples/sky-simulator.ts, SIZE × SIZE, circular 3.5-pixel PSF, log-normal diffuse emission at ~5σ,
  * one point source per 2000 pixels from SNR 3 to 300, Gaussian noise, fixed seed.
  */
-import { createRealFft2d } from '../engine/fft';
+import { createRealFft2d, supportsFloat32 } from '../engine/fft';
 import { separate } from '../engine/separate';
 import { isolatedFluxError, simulateSky } from '../../samples/sky-simulator';
 import { psfFromFwhm } from '../engine/psf';
@@ -22,6 +22,9 @@ export interface SeparationBenchRow {
   fitSeconds: number[];
   iterations: number;
   evaluations: number;
+  /** Evaluations of the coarse start and their cost share: its padded pixels / the fine padded pixels. */
+  coarseEvaluations: number;
+  coarseShare: number;
   sources: number;
   converged: boolean;
   fftImplementation: string;
@@ -65,8 +68,10 @@ for (let i = 0; i < repeat; i++) {
   fit.push(last.timings.fit / 1000);
 }
 const result = last!;
-// The FFT pair at the padded size, with the options the fit uses (the engine's defaults), in this process.
-const fft = createRealFft2d(result.paddedSize.width, result.paddedSize.height);
+// The FFT pair at the padded size with the transform the fit uses (float32 PFFFT where the grid allows it,
+// staged-fit.ts `precision`), in this process.
+const { width: pw, height: ph } = result.paddedSize;
+const fft = createRealFft2d(pw, ph, { precision: supportsFloat32(pw, ph) ? 'float32' : 'float64' });
 const pair = timeFftPair(fft, Math.max(5, Math.min(15, Math.round(2e7 / (size * size)))));
 fft.dispose();
 const row: SeparationBenchRow = {
@@ -78,6 +83,10 @@ const row: SeparationBenchRow = {
   fitSeconds: fit,
   iterations: result.iterations,
   evaluations: result.evaluations,
+  coarseEvaluations: result.coarseStart?.evaluations ?? 0,
+  coarseShare: result.coarseStart
+    ? (result.coarseStart.paddedSize.width * result.coarseStart.paddedSize.height) / (pw * ph)
+    : 0,
   sources: result.catalogue.length,
   converged: result.converged,
   fftImplementation: fft.implementation,

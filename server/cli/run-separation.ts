@@ -214,6 +214,7 @@ function runRecord(
     sources: result.catalogue.length,
     iterations: result.iterations,
     evaluations: result.evaluations,
+    coarseStart: result.coarseStart,
     finalObjective: result.objective,
     converged: result.converged,
     seedsPerRound: result.seedsPerRound,

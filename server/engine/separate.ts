@@ -91,7 +91,10 @@ export interface SeparationResult {
   paddedSize: { width: number; height: number };
   catalogue: CatalogueSource[];
   iterations: number;
+  /** Objective evaluations on the padded grid. */
   evaluations: number;
+  /** The diffuse-only start on the 2 × 2 binned image (staged-fit.ts), when it ran. */
+  coarseStart: { evaluations: number; paddedSize: { width: number; height: number } } | null;
   objective: number;
   converged: boolean;
   trace: { stage: string; iteration: number; objective: number; gradNorm: number }[];
@@ -321,6 +324,12 @@ export async function separate(
     catalogue,
     iterations: fit.iterations,
     evaluations: fit.evaluations,
+    coarseStart: fit.coarse
+      ? {
+          evaluations: fit.coarse.evaluations,
+          paddedSize: { width: fit.coarse.paddedWidth, height: fit.coarse.paddedHeight },
+        }
+      : null,
     objective: fit.objective,
     converged: fit.converged,
     trace: fit.trace,

@@ -139,8 +139,8 @@ export interface FitResult {
   iterations: number;
   /** Objective evaluations on the full-resolution grid. */
   evaluations: number;
-  /** Evaluations of the coarse start (on a grid with a quarter of the pixels); 0 without one. */
-  coarseEvaluations: number;
+  /** The coarse start's evaluations and padded grid (about a quarter of the pixels); null without one. */
+  coarse: { evaluations: number; paddedWidth: number; paddedHeight: number } | null;
   objective: number;
   converged: boolean;
   trace: { stage: string; iteration: number; objective: number; gradNorm: number }[];
@@ -377,7 +377,9 @@ function upsampledStart(
 }
 
 function median(values: number[]): number {
-  const a = values.slice().sort((x, y) => x - y);
+  // a typed array sorts numerically without a comparator call per comparison (10⁶ values: 0.35 s instead of
+  // 1.4 s, measured once on a busy machine)
+  const a = Float64Array.from(values).sort();
   const n = a.length;
   return n % 2 ? a[(n - 1) / 2]! : (a[n / 2 - 1]! + a[n / 2]!) / 2;
 }
@@ -712,7 +714,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       options.coarseStart === false || options.diffuseOnly || options.spectrum?.amplitude != null
         ? null
         : binnedInput(input);
-    let coarseEvaluations = 0;
+    let coarseSummary: FitResult['coarse'] = null;
     if (coarseInput) {
       // Stage 1 on the 2 × 2 binned image, then its field brought up to this grid.
       const coarse = stagedFit(coarseInput, {
@@ -722,7 +724,11 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
           ? (p) => options.onProgress?.({ ...p, stage: `${p.stage}-coarse` })
           : undefined,
       });
-      coarseEvaluations = coarse.evaluations;
+      coarseSummary = {
+        evaluations: coarse.evaluations,
+        paddedWidth: coarse.paddedWidth,
+        paddedHeight: coarse.paddedHeight,
+      };
       iterations += coarse.iterations;
       for (const t of coarse.trace) trace.push({ ...t, stage: `${t.stage}-coarse` });
       // per-mode power at the same physical wavenumber is 4× larger on this grid, and k in cycles per pixel is
@@ -822,7 +828,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       spectrum: { ...spectrum, estimated: estimateSpectrum, binned },
       iterations,
       evaluations: model.evaluations,
-      coarseEvaluations,
+      coarse: coarseSummary,
       objective,
       converged,
       trace,

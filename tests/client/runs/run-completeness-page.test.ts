@@ -71,7 +71,36 @@ function makeStudy(overrides: Partial<InjectionStudyDetail> = {}): InjectionStud
         },
       ],
       falseSources: {
-        bins: [],
+        bins: [
+          {
+            snrLow: 5,
+            snrHigh: 7,
+            count: 1,
+            countLow: 0.17,
+            countHigh: 3.3,
+            rate: 625,
+            rateLow: 108,
+            rateHigh: 2062,
+            real: 4,
+            reliability: 0.75,
+            reliabilityLow: 0.18,
+            reliabilityHigh: 0.96,
+          },
+          {
+            snrLow: 50,
+            snrHigh: 5e6,
+            count: 0,
+            countLow: 0,
+            countHigh: 1.84,
+            rate: 0,
+            rateLow: 0,
+            rateHigh: 1150,
+            real: 0,
+            reliability: null,
+            reliabilityLow: null,
+            reliabilityHigh: null,
+          },
+        ],
         detections: 2,
         residualsExcluded: 1,
         totalRate: 625,
@@ -189,6 +218,10 @@ describe('RunCompletenessPage', () => {
     expect(table).toContain('0.50 (0.31–0.69)');
     expect(table).toContain('1.00 (0.87–1.00)');
     expect(wrapper.get('[data-test="false-rate"]').text()).toMatch(/625 deg⁻².*103–2\.07e\+3/);
+    const reliability = wrapper.get('[data-test="reliability"]').text();
+    expect(reliability).toContain('5.00–7.00');
+    expect(reliability).toContain('0.75 (0.18–0.96)');
+    expect(reliability).toContain('50.0 and above');
     const links = wrapper.findAll('[data-test="study-exports"] a').map((a) => a.attributes('href'));
     expect(links).toContain('/api/runs/42/injection-studies/5/export?table=completeness&format=csv');
     expect(links).toContain('/api/runs/42/injection-studies/5/export?table=false-sources&format=fits');

@@ -223,6 +223,7 @@ function runRecord(
     catalogue: {
       sources: result.catalogue.length,
       refinedOn: result.refinement,
+      refinedImage: result.catalogueImage + 1,
       positionsIn: `image 1 (${basename(request.imagePaths[0]!)}) pixels, FITS 1-based`,
     },
     seedsFrom: `image ${result.sharpestImage + 1} (the sharpest)`,

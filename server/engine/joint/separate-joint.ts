@@ -119,8 +119,10 @@ export interface JointSeparationResult {
   compactSky: Float32Array;
   images: JointImageResult[];
   catalogue: CatalogueSource[];
-  /** How the catalogue was refined. */
-  refinement: 'reference-image';
+  /** Which image the sources were refined on: the reference, or the sharpest (positions then carried over). */
+  refinement: 'reference-image' | 'sharpest-image';
+  /** 0-based index of that image. */
+  catalogueImage: number;
   sharpestImage: number;
   spectrum: JointFitResult['spectrum'];
   compactPrior: { alpha: number; q: number; pedestal: number; fluxErrorScale: number };
@@ -395,28 +397,37 @@ export async function separateJoint(
   const tFit = performance.now() - t1;
   options.signal?.throwIfAborted();
 
-  // Catalogue on the reference image.
+  // Catalogue: refined on the sharpest image (the reference when it is the sharpest), then expressed in the
+  // reference's pixels, flux convention and frame.
   const t2 = performance.now();
-  const r0 = prepared[0]!;
-  const compactRef = new Float64Array(ref.width * ref.height);
-  r0.resampler.apply(fit.compactSky, compactRef);
-  const g0 = gainsOut.gains[0]!;
-  for (let j = 0; j < compactRef.length; j++) compactRef[j] = compactRef[j]! * g0;
+  const k = fit.sharpest;
+  const rk = prepared[k]!;
+  const imgK = images[k]!;
+  const scaleK = fit.scales[k]!.value * gainsOut.gains[k]!;
+  const compactK = new Float64Array(imgK.width * imgK.height);
+  rk.resampler.apply(fit.compactSky, compactK);
+  for (let j = 0; j < compactK.length; j++) compactK[j] = compactK[j]! * scaleK;
   const perBeam = units[0]!.per === 'beam';
-  const catalogue = extractSources({
-    width: ref.width,
-    height: ref.height,
-    data: r0.data,
-    mask: r0.valid,
-    noise: r0.noise,
-    background: fit.perImage[0]!.diffuse,
-    compactSky: compactRef,
-    psf: psfs[0]!.own,
+  const refBeamArea = psfBeamAreaPx(psfs[0]!.own);
+  let catalogue = extractSources({
+    width: imgK.width,
+    height: imgK.height,
+    data: rk.data,
+    mask: rk.valid,
+    noise: rk.noise,
+    background: fit.perImage[k]!.diffuse,
+    compactSky: compactK,
+    psf: psfs[k]!.own,
     threshold: settings.threshold,
-    wcs: refWcs,
-    beamAreaPx: perBeam ? psfBeamAreaPx(psfs[0]!.own) : null,
-    pedestal: fit.pedestal * g0 * r0.pixelArea,
+    wcs: wcss[k]!,
+    beamAreaPx: k === 0 && perBeam ? refBeamArea : null,
+    pedestal: fit.pedestal * scaleK * rk.pixelArea,
   });
+  if (k !== 0)
+    catalogue = toReference(catalogue, wcss[k]!, refWcs, scaleK, perBeam ? refBeamArea : null, [
+      names[k]!,
+      names[0]!,
+    ]);
   const tCatalogue = performance.now() - t2;
 
   const imageResults = images.map((img, i): JointImageResult => {
@@ -479,7 +490,8 @@ export async function separateJoint(
     compactSky: toFloat32(fit.compactSky),
     images: imageResults,
     catalogue,
-    refinement: 'reference-image',
+    refinement: fit.sharpest === 0 ? 'reference-image' : 'sharpest-image',
+    catalogueImage: fit.sharpest,
     sharpestImage: fit.sharpest,
     spectrum: fit.spectrum,
     compactPrior: { alpha: fit.alpha, q: fit.q, pedestal: fit.pedestal, fluxErrorScale: fit.fluxErrorScale },
@@ -493,4 +505,54 @@ export async function separateJoint(
     seedsPerRound: fit.seedsPerRound,
     timings: { fit: tFit, catalogue: tCatalogue, total: performance.now() - started },
   };
+}
+
+/**
+ * Sources measured on image k, re-expressed for the reference: pixel positions through the two WCSs (errors
+ * through the local Jacobian of the map, differences over ±½ pixel; the x–y covariance of the measurement is not
+ * kept by the catalogue, so it is taken as 0), fluxes divided by image k's c·g (its values per reference flux
+ * unit), world positions converted to the reference's frame (their arcsec errors kept as measured, exact when the
+ * frames agree).
+ */
+function toReference(
+  catalogue: CatalogueSource[],
+  from: Wcs,
+  to: Wcs,
+  scale: number,
+  beamAreaPx: number | null,
+  names: [string, string],
+): CatalogueSource[] {
+  const convert = frameConversion(from, to, names);
+  const map = (x: number, y: number): [number, number] => {
+    const [lon, lat] = from.pixelToWorld(x, y);
+    const [l2, b2] = convert(lon, lat);
+    return to.worldToPixel(l2, b2);
+  };
+  return catalogue.map((c) => {
+    const [x, y] = map(c.x, c.y);
+    const [xp, yp] = map(c.x + 0.5, c.y);
+    const [xm, ym] = map(c.x - 0.5, c.y);
+    const [xq, yq] = map(c.x, c.y + 0.5);
+    const [xr, yr] = map(c.x, c.y - 0.5);
+    const j11 = xp - xm;
+    const j21 = yp - ym;
+    const j12 = xq - xr;
+    const j22 = yq - yr;
+    const [lon, lat] = c.ra !== null && c.dec !== null ? convert(c.ra, c.dec) : [NaN, NaN];
+    const flux = c.flux / scale;
+    const fluxErr = c.fluxErr / scale;
+    return {
+      ...c,
+      x,
+      y,
+      xErr: Math.hypot(j11 * c.xErr, j12 * c.yErr),
+      yErr: Math.hypot(j21 * c.xErr, j22 * c.yErr),
+      ra: Number.isFinite(lon) ? lon : null,
+      dec: Number.isFinite(lat) ? lat : null,
+      flux,
+      fluxErr,
+      fluxDensity: beamAreaPx ? flux / beamAreaPx : null,
+      fluxDensityErr: beamAreaPx ? fluxErr / beamAreaPx : null,
+    };
+  });
 }

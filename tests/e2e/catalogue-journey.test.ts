@@ -135,22 +135,22 @@ describe('catalogue journey in the browser', () => {
       ...truth.map((s, i) => `AWS-T${String(i + 1).padStart(2, '0')},${s.ra},${s.dec},${s.fluxDensity}`),
     ].join('\n');
 
+    await page.goto(`${app.url}/runs/${runId}`);
+    await page.getByTestId('cross-match-link').click();
+    await page.waitForURL(new RegExp(`/runs/${runId}/cross-match$`));
+    // The default radius: half the restoring beam's FWHM (BMAJ = 3 px of 1.5″ in the simulated header).
+    const radiusField = page.getByRole('textbox', { name: /^Match radius \(arcsec\)/ });
+    await expect.poll(() => radiusField.getAttribute('placeholder')).toBe('2.25');
+
     // The matching counted here from the stored catalogue: a truth source is matched when one of our sources
-    // lies within the page's default radius (half the 4.5″ beam FWHM); the simulated sources are ≥ 10 px apart,
-    // so no source can claim two partners.
+    // lies within that radius; the simulated sources are ≥ 10 px (15″) apart, so none can claim two partners.
     const ours = (await app.runtime.ctx.knex('run_sources').where('runId', runId).select('ra', 'dec')) as {
       ra: number;
       dec: number;
     }[];
-    const radius = 4.5 / 2;
-    const matched = truth.filter((t) =>
-      ours.some((o) => separationArcsec(t.ra, t.dec, o.ra, o.dec) <= radius),
-    );
+    const matched = truth.filter((t) => ours.some((o) => separationArcsec(t.ra, t.dec, o.ra, o.dec) <= 2.25));
     expect(matched.length).toBeGreaterThan(0);
 
-    await page.goto(`${app.url}/runs/${runId}`);
-    await page.getByTestId('cross-match-link').click();
-    await page.waitForURL(new RegExp(`/runs/${runId}/cross-match$`));
     await page.getByText('Add a reference catalogue', { exact: true }).click();
     await page.getByTestId('catalogue-file-input').setInputFiles({
       name: 'aws-truth-tile8.csv',

@@ -106,9 +106,10 @@ describe('ComparisonPage', () => {
       '/api/runs/43/sources?page=1&pageSize=1000&sort=-snr',
     ]);
     const panels = () => wrapper.findAllComponents(SkyViewer).slice(0, 2);
-    expect(
-      panels().map((viewer) => viewer.props('sources').map((m: { id: number; label: string }) => m.label)),
-    ).toEqual([['Run 42 (balanced): source 2'], ['Run 43 (deep-search): source 3']]);
+    expect(panels().map((viewer) => viewer.props('sources')!.map((marker) => marker.label))).toEqual([
+      ['Run 42 (balanced): source 2'],
+      ['Run 43 (deep-search): source 3'],
+    ]);
     // Run 43 has more sources than are marked: the page says so.
     expect(pageText()).toContain('Markers show the 1000 sources of highest SNR of Run 43 (deep-search).');
     await wrapper.find('[data-test="show-sources"]').trigger('click');
@@ -165,6 +166,27 @@ describe('ComparisonPage', () => {
     expect(line.x[1]).toBeGreaterThanOrEqual(Math.max(...ends));
     expect(layout.xaxis.type).toBe('log');
     expect(layout.yaxis.title.text).toBe('Run 42 (balanced): flux density (Jy)');
+  });
+
+  it('lists the sources found by one run only; Show centres every viewer on one', async () => {
+    const { wrapper } = await open();
+    const table = wrapper.find('[data-test="unmatched-sources"]');
+    expect(table.find('h4').text()).toBe('Found by one run only (1)');
+    expect(
+      table
+        .findAll('tbody td')
+        .map((td) => td.text())
+        .slice(0, 5),
+    ).toEqual(['Run 42 (balanced)', '4', '20.0, 15.0', '0.00300 ± 0.00060', '5.0']);
+    await table
+      .find('button[aria-label="Show source 4 of Run 42 (balanced) in the viewers"]')
+      .trigger('click');
+    await settle();
+    for (const viewer of wrapper.findAllComponents(SkyViewer)) {
+      expect(viewer.props('view')).toMatchObject({ centreX: 20, centreY: 15 });
+      expect(viewer.props('view')!.zoom).toBeGreaterThanOrEqual(2);
+      expect(viewer.props('cursor')).toEqual({ x: 20, y: 15 });
+    }
   });
 
   it('choosing another pair asks for its difference and cross-match', async () => {

@@ -7,9 +7,6 @@ import { currentUser } from '../http/guards';
 import { runOf } from '../runs/run-access';
 import type { Download } from '../runs/runs.service';
 import * as studies from './injection.service';
-import { tableToCsv } from '../catalogue/export-csv';
-import { tableToFitsBintable } from '../catalogue/export-fits-table';
-import { tableToVotable } from '../catalogue/export-votable';
 
 type StudyParams = { id: number; studyId: number };
 type ExportQuery = { table: 'completeness' | 'false-sources'; format: 'csv' | 'votable' | 'fits' };
@@ -52,26 +49,7 @@ export function injectionController(ctx: AppContext) {
       const answer = await studies.runNumberCounts(ctx, run, req.query);
       const { format } = req.query;
       if (format === 'json') return void res.json(answer.counts);
-      const table = answer.table();
-      const base = `skysieve-run-${run.id}-number-counts`;
-      if (format === 'csv')
-        return sendDownload(res, {
-          contentType: 'text/csv; charset=utf-8',
-          fileName: `${base}.csv`,
-          body: tableToCsv(table),
-        });
-      if (format === 'votable') {
-        return sendDownload(res, {
-          contentType: 'application/x-votable+xml; charset=utf-8',
-          fileName: `${base}.xml`,
-          body: tableToVotable(table),
-        });
-      }
-      sendDownload(res, {
-        contentType: 'application/fits',
-        fileName: `${base}.fits`,
-        body: Buffer.from(tableToFitsBintable(table)),
-      });
+      sendDownload(res, studies.download(answer.table(), `skysieve-run-${run.id}-number-counts`, format));
     },
   };
 }

@@ -42,14 +42,14 @@ export function comparisonsController(ctx: AppContext) {
     async difference(req: ApiRequest<unknown, IdParams, DifferenceQuery>, res: Response) {
       const comparison = comparisonOf(res);
       const { a, b, maxSize } = req.query;
-      const { view, runs } = await comparisons.diffuseDifference(ctx.knex, comparison, req.query);
+      const runs = await comparisons.pairOf(comparison, a, b);
       // Stored results never change: the two runs, their digests and the size name the bytes.
       const digest = (i: 0 | 1) => runs[i].settingsDigest.slice(0, 12);
       const etag = `"difference-${a}-${digest(0)}-${b}-${digest(1)}-${maxSize ?? 'full'}"`;
       res.setHeader('ETag', etag);
       res.setHeader('Cache-Control', 'private, max-age=0, must-revalidate');
       if (req.headers['if-none-match'] === etag) return void res.status(304).end();
-      sendPlaneView(res, view);
+      sendPlaneView(res, await comparisons.diffuseDifference(ctx.knex, runs, maxSize));
     },
     async crossMatch(req: ApiRequest<unknown, IdParams, CrossMatchQuery>, res: Response) {
       res.json(await comparisons.crossMatchRuns(ctx.knex, comparisonOf(res), req.query));

@@ -187,7 +187,7 @@ export async function deleteComparison(
 }
 
 /** Runs a and b of the comparison (422 when either is not one of its runs). */
-async function pairOf(comparison: Comparison, a: number, b: number): Promise<[Run, Run]> {
+export async function pairOf(comparison: Comparison, a: number, b: number): Promise<[Run, Run]> {
   const runs = await runsOf(comparison);
   const pick = (id: number) => {
     const run = runs.find((candidate) => candidate.id === id);
@@ -204,19 +204,21 @@ async function pairOf(comparison: Comparison, a: number, b: number): Promise<[Ru
 /** diffuse(a) − diffuse(b) at full size, then block-averaged like a component view. */
 export async function diffuseDifference(
   knex: Knex,
-  comparison: Comparison,
-  query: DifferenceQuery,
-): Promise<{ view: PlaneView; runs: [Run, Run] }> {
-  const runs = await pairOf(comparison, query.a, query.b);
-  const [first, second] = await Promise.all(runs.map((run) => loadPlane(knex, run, 'diffuse')));
-  if (first!.width !== second!.width || first!.height !== second!.height) {
+  [runA, runB]: [Run, Run],
+  maxSize: DifferenceQuery['maxSize'],
+): Promise<PlaneView> {
+  const [first, second] = await Promise.all([
+    loadPlane(knex, runA, 'diffuse'),
+    loadPlane(knex, runB, 'diffuse'),
+  ]);
+  if (first.width !== second.width || first.height !== second.height) {
     throw unprocessable(
-      `The diffuse planes differ in size (${first!.width} × ${first!.height} and ${second!.width} × ${second!.height}).`,
+      `The diffuse planes differ in size (${first.width} × ${first.height} and ${second.width} × ${second.height}).`,
     );
   }
-  const data = new Float32Array(first!.data.length);
-  for (let i = 0; i < data.length; i++) data[i] = first!.data[i]! - second!.data[i]!;
-  return { view: planeView({ width: first!.width, height: first!.height, data }, query.maxSize), runs };
+  const data = new Float32Array(first.data.length);
+  for (let i = 0; i < data.length; i++) data[i] = first.data[i]! - second.data[i]!;
+  return planeView({ width: first.width, height: first.height, data }, maxSize);
 }
 
 /** Half the geometric-mean FWHM, the same rule as defaultMatchRadiusArcsec (common practice, no source). */

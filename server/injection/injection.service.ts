@@ -292,6 +292,23 @@ export function download(table: CatalogueTable, base: string, format: 'csv' | 'v
   };
 }
 
+/** The completeness table with the SNR of each level after the flux (null for Poisson images). */
+function withSnrColumn(table: CatalogueTable, snrs: readonly (number | null)[]): CatalogueTable {
+  const at = table.columns.findIndex((column) => column.name === 'flux') + 1;
+  const snr = {
+    name: 'snr',
+    datatype: 'double' as const,
+    unit: '',
+    ucd: 'stat.snr',
+    description: 'SNR of an isolated source at this flux (flux / (sigma / sqrt(sum psf^2)))',
+  };
+  return {
+    ...table,
+    columns: [...table.columns.slice(0, at), snr, ...table.columns.slice(at)],
+    rows: table.rows.map((row, k) => [...row.slice(0, at), snrs[k] ?? null, ...row.slice(at)]),
+  };
+}
+
 export async function studyExport(
   ctx: AppContext,
   run: Run,
@@ -308,7 +325,10 @@ export async function studyExport(
   const results = study.results;
   const table =
     query.table === 'completeness'
-      ? completenessToTable(results.levels as LevelResult[], provenance, results.fluxUnit)
+      ? withSnrColumn(
+          completenessToTable(results.levels as LevelResult[], provenance, results.fluxUnit),
+          results.levels.map((level) => level.snr),
+        )
       : falseSourcesToTable(
           results.falseSources.bins,
           provenance,

@@ -205,6 +205,8 @@ describe('a study at a bright and a very faint level', () => {
     expect(rows).toHaveLength(2);
     expect(Number(rows[0]!.recovered)).toBe(study.results!.levels[0]!.recovered);
     expect(Number(rows[0]!.flux)).toBeCloseTo(study.fluxes[0]!, 12);
+    expect(Number(rows[0]!.snr)).toBeCloseTo(40, 9);
+    expect(Object.keys(rows[0]!).slice(0, 3)).toEqual(['flux', 'snr', 'injected']);
     const votable = await owner.get(`${base()}/${study.id}/export?table=false-sources&format=votable`);
     expect(votable.status).toBe(200);
     const xml = new XMLParser({ ignoreAttributes: false }).parse(votable.text);

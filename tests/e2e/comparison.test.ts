@@ -1,12 +1,12 @@
 /**
  * The comparison journey in a real browser (tests/e2e/support/browser-app.ts: the built client, the real app, a
  * separation worker, Debian's Chromium at 1366 × 768): two runs of a small simulated Lyra Deep Field image with
- * different detection thresholds finish; an editor opens the image in the library, chooses both runs and presses
- * Compare; the comparison page shows the settings that differ, a panel per run, the diffuse difference and the
- * cross-match with its flux–flux plot, fits the laptop width in light and dark themes, and its link opens for a
- * project viewer but not for someone outside the project. Screenshots go to test-artifacts/comparison/. No
- * console errors except the announced 404 of the outsider.
- */
+ * different detection thresholds and compact-source caution finish; an editor opens the image in the library,
+ * chooses both runs and presses Compare; the comparison page shows the settings that differ, a panel per run, the
+ * diffuse difference and the cross-match with its flux–flux plot, and fits the laptop width in light and dark
+ * themes; its link opens for a project viewer (signed out first: sign-in leads back to it) but not for someone
+ * outside the project. Screenshots go to test-artifacts/comparison/. No console errors except the announced 404
+ * of the outsider. */
 import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
@@ -132,11 +132,15 @@ describe('comparing two runs in the browser', () => {
     expect(app.problems).toEqual([]);
   }, 240_000);
 
-  it('opens for a project viewer through its link, and is "not found" for anyone else', async () => {
+  it('opens for a project viewer through its link (after signing in), and is "not found" for anyone else', async () => {
+    // Signed out, the link leads to sign-in and back to the comparison.
     const viewerPage = await app.newPage();
-    await viewerPage.goto(`${app.url}/signin`);
-    await signIn(viewerPage, people.viewer, testPassword);
     await viewerPage.goto(comparisonUrl);
+    await viewerPage.waitForURL(/\/signin\?redirect=/);
+    await viewerPage.getByRole('textbox', { name: 'E-mail address', exact: true }).fill(people.viewer);
+    await viewerPage.getByRole('textbox', { name: 'Password', exact: true }).fill(testPassword);
+    await viewerPage.getByRole('button', { name: 'Sign in' }).click();
+    await viewerPage.waitForURL(comparisonUrl);
     await expect
       .poll(() => viewerPage.getByTestId('comparison-name').textContent())
       .toBe('Threshold 5 against 8');

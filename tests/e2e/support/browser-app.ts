@@ -238,3 +238,50 @@ export function simulatedField(seed: number, size = 96): { sky: SimulatedSky; fi
   );
   return { sky, fits };
 }
+
+/**
+ * WCAG 2.x contrast ratio of an element's text colour against the first opaque background behind it (walking up
+ * the ancestors; semi-transparent layers are blended in order). Formula: WCAG 2.2, "contrast ratio" and
+ * "relative luminance" definitions; 4.5 is the AA minimum for body text, 3 for large text.
+ */
+export function textContrast(element: Locator): Promise<number> {
+  return element.evaluate((start) => {
+    const view = start.ownerDocument.defaultView!;
+    const parse = (text: string) => {
+      const parts = /rgba?\(([^)]+)\)/
+        .exec(text)?.[1]
+        ?.split(/[,\s/]+/)
+        .filter(Boolean)
+        .map(Number) ?? [0, 0, 0, 0];
+      return { r: parts[0]!, g: parts[1]!, b: parts[2]!, a: parts[3] ?? 1 };
+    };
+    const layers: { r: number; g: number; b: number; a: number }[] = [];
+    for (let node: typeof start | null = start; node; node = node.parentElement) {
+      const colour = parse(view.getComputedStyle(node).backgroundColor);
+      if (colour.a > 0) layers.push(colour);
+      if (colour.a >= 1) break;
+    }
+    let back = { r: 255, g: 255, b: 255 };
+    for (const layer of layers.reverse())
+      back = {
+        r: layer.r * layer.a + back.r * (1 - layer.a),
+        g: layer.g * layer.a + back.g * (1 - layer.a),
+        b: layer.b * layer.a + back.b * (1 - layer.a),
+      };
+    const text = parse(view.getComputedStyle(start).color);
+    const fore = {
+      r: text.r * text.a + back.r * (1 - text.a),
+      g: text.g * text.a + back.g * (1 - text.a),
+      b: text.b * text.a + back.b * (1 - text.a),
+    };
+    const luminance = ({ r, g, b }: { r: number; g: number; b: number }) => {
+      const channel = (v: number) => {
+        const s = v / 255;
+        return s <= 0.04045 ? s / 12.92 : ((s + 0.055) / 1.055) ** 2.4;
+      };
+      return 0.2126 * channel(r) + 0.7152 * channel(g) + 0.0722 * channel(b);
+    };
+    const [light, dark] = [luminance(fore), luminance(back)].sort((x, y) => y - x);
+    return (light! + 0.05) / (dark! + 0.05);
+  });
+}

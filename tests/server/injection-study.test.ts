@@ -5,8 +5,13 @@
  * (samples/sky-simulator.ts, seeded): validation and refusals, a study at a bright and a very faint SNR level,
  * reproducible positions, cancel, the exports read back, and the number counts corrected with the study.
  * Outside references: the Wilson score interval (E. B. Wilson, JASA 22, 209, 1927) recomputed here; the Gehrels
- * (1986, ApJ 303, 336) eq. 7/12 limits; RFC 4180 CSV read by csv-parse; VOTable read by fast-xml-parser.
+ * (1986, ApJ 303, 336) eq. 7/12 limits; RFC 4180 CSV read by csv-parse; VOTable read by fast-xml-parser; the FITS
+ * table and the VOTable read back by astropy.
  */
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+
 import { parse as parseCsv } from 'csv-parse/sync';
 import { XMLParser } from 'fast-xml-parser';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -17,6 +22,7 @@ import { COMPLETENESS_CAUTION } from '../../server/catalogue/completeness';
 import { startInjectionWorker } from '../../server/queue/injection-worker';
 import { configureRunQueue, stopRunQueue } from '../../server/queue/run-queue';
 import { type RunWorker, startRunWorker } from '../../server/queue/run-worker';
+import { readBackWithAstropy } from '../catalogue/astropy-read-back';
 import { type BrowserClient, signIn, startTestApp, type TestApp } from '../support/test-app';
 import { fastSettings, type RunFixture, runFixture, smallSky, waitForRun } from './runs/run-support';
 
@@ -223,6 +229,23 @@ describe('a study at a bright and a very faint level', () => {
     const bytes = fits.body as Buffer;
     expect(bytes.subarray(0, 30).toString('latin1')).toMatch(/^SIMPLE {2}=\s+T/);
     expect(bytes.byteLength % 2880).toBe(0);
+    // Outside reader: astropy (Debian's python3-astropy) reads the FITS table and the VOTable back.
+    const folder = mkdtempSync(path.join(os.tmpdir(), 'skysieve-injection-'));
+    try {
+      writeFileSync(path.join(folder, 'c.fits'), bytes);
+      writeFileSync(path.join(folder, 'f.xml'), votable.text);
+      const read = readBackWithAstropy({
+        fits: path.join(folder, 'c.fits'),
+        votable: path.join(folder, 'f.xml'),
+      });
+      expect(read.fits.names.slice(0, 4)).toEqual(['flux', 'snr', 'injected', 'recovered']);
+      expect(read.fits.rows).toHaveLength(2);
+      expect(read.fits.rows[0][2]).toBe(6);
+      expect(read.fits.rows[0][1]).toBeCloseTo(40, 9);
+      expect(read.votable.rows).toHaveLength(study.results!.falseSources.bins.length);
+    } finally {
+      rmSync(folder, { recursive: true, force: true });
+    }
   });
 
   it('corrects the number counts with the study where completeness is measured', async () => {

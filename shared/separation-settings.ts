@@ -59,8 +59,9 @@ export const separationSettingsInputSchema = z
       .optional()
       .describe(
         'Scale of the prior on compact-source pixels (inverse-gamma q), in units of the flux error of a single ' +
-          'isolated source. Every pixel that holds no source keeps a tiny level q/α that the diffuse field ' +
-          'absorbs; larger values raise that level and make faint sources slightly easier to switch on.',
+          'isolated source. Every pixel that holds no source keeps a tiny level q/α, which is reported as part ' +
+          'of the diffuse component; larger values raise that level and make faint sources slightly easier to ' +
+          'switch on.',
       ),
     diffuseAmplitude: positive
       .nullable()
@@ -110,6 +111,14 @@ export const separationSettingsInputSchema = z
       .describe(
         'A fit stage stops when the objective falls by less than this (nats) per iteration, three times running.',
       ),
+    settleTolerance: positive
+      .max(10)
+      .optional()
+      .describe(
+        'A fit stage also stops once the fitted image has settled: over 10 iterations the model and the compact ' +
+          'component moved by less than this many noise σ (RMS over the pixels). Smaller values fit longer for ' +
+          'changes too small to see in the results. Default 0.01.',
+      ),
   })
   .strict();
 export type SeparationSettingsInput = z.input<typeof separationSettingsInputSchema>;
@@ -129,6 +138,7 @@ export interface ResolvedSeparationSettings {
   seedRounds: number;
   maxIterations: number;
   absoluteDecrease: number;
+  settleTolerance: number;
 }
 
 type PresetValues = Omit<ResolvedSeparationSettings, 'preset' | 'likelihood' | 'psf' | 'noiseSigma'>;
@@ -144,6 +154,8 @@ const common: PresetValues = {
   seedRounds: 2,
   maxIterations: 300,
   absoluteDecrease: 0.01,
+  // RMS σ over 10 iterations; staged-fit.ts `changeTolerance` (chosen by measurement on the acceptance skies)
+  settleTolerance: 0.01,
 };
 
 export const SEPARATION_PRESETS: Record<SeparationPreset, PresetValues> = {
@@ -170,6 +182,7 @@ export function resolveSettings(input: unknown = {}): ResolvedSeparationSettings
     seedRounds: parsed.seedRounds ?? base.seedRounds,
     maxIterations: parsed.maxIterations ?? base.maxIterations,
     absoluteDecrease: parsed.absoluteDecrease ?? base.absoluteDecrease,
+    settleTolerance: parsed.settleTolerance ?? base.settleTolerance,
   };
 }
 

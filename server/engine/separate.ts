@@ -60,13 +60,17 @@ export interface SeparationResult {
   height: number;
   settings: ResolvedSeparationSettings;
   settingsDigest: string;
-  /** s on the image grid, before convolution. */
+  /**
+   * s + q/α on the image grid, before convolution. The compact prior leaves every "off" pixel at u = q/α (the
+   * pedestal, compactPrior.pedestal): a flat floor, not compact emission, so it is reported with the diffuse
+   * component (on the faint-diffuse acceptance sky it was most of the diffuse error: a −0.16σ offset).
+   */
   diffuseSky: Float32Array;
-  /** PSF ⊛ s: the diffuse component as it appears in the image. */
+  /** PSF ⊛ s + q/α: the diffuse component as it appears in the image. */
   diffuse: Float32Array;
-  /** u on the image grid (its "off" pixels hold the pedestal q/α). */
+  /** u − q/α on the image grid (≈ 0 at "off" pixels). */
   compactSky: Float32Array;
-  /** PSF ⊛ u. */
+  /** PSF ⊛ u − q/α; diffuse + compact = model. */
   compact: Float32Array;
   model: Float32Array;
   /** data − model (NaN where masked). */
@@ -177,7 +181,8 @@ export function choosePsf(image: SeparationImage, settings: ResolvedSeparationSe
   );
 }
 
-const toFloat32 = (a: Float64Array): Float32Array => Float32Array.from(a);
+/** a + shift as float32. */
+const toFloat32 = (a: Float64Array, shift = 0): Float32Array => Float32Array.from(a, (v) => v + shift);
 
 export async function separate(
   image: SeparationImage,
@@ -254,6 +259,7 @@ export async function separate(
       seedSnr: settings.seedSnr,
       maxIterations: settings.maxIterations,
       absoluteDecrease: settings.absoluteDecrease,
+      changeTolerance: settings.settleTolerance,
       signal: options.signal,
       onProgress: options.onProgress ? (p) => options.onProgress?.({ ...p, phase: 'fit' }) : undefined,
     },
@@ -300,10 +306,10 @@ export async function separate(
     height,
     settings,
     settingsDigest: settingsDigest(settings),
-    diffuseSky: toFloat32(fit.diffuseSky),
-    diffuse: toFloat32(fit.diffuse),
-    compactSky: toFloat32(fit.compactSky),
-    compact: toFloat32(fit.compact),
+    diffuseSky: toFloat32(fit.diffuseSky, fit.pedestal),
+    diffuse: toFloat32(fit.diffuse, fit.pedestal),
+    compactSky: toFloat32(fit.compactSky, -fit.pedestal),
+    compact: toFloat32(fit.compact, -fit.pedestal),
     model: toFloat32(fit.model),
     residual,
     residualNorm,

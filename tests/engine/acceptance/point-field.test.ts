@@ -133,15 +133,14 @@ describe('separation of a point field on diffuse emission (Gaussian noise)', () 
     expect(p.y, `y: RMS error/limit ${p.y} over ${p.count} sources, need ≤ 1.3`).toBeLessThanOrEqual(1.3);
   });
 
-  it('reports its diffuse error next to a median-filter background (the comparison is asserted on the strong-diffuse images)', () => {
-    // On this faint, smooth diffuse sky (3σ, e^±0.5) the undetected SNR 3–5 sources dominate both errors and the
-    // two are about equal (measured 0.168 vs 0.164); diffuse-field.test.ts asserts the comparison where the
-    // diffuse emission is strong. Here: the fit must at least stay within 10% of the median filter.
+  it('recovers the diffuse component closer to the truth than a median-filter background', () => {
+    // A faint, smooth diffuse sky (3σ, e^±0.5) where a 15 × 15 median filter is at its best (measured: fit
+    // 0.113 and 0.120 σ RMS, median filter 0.164 and 0.170); diffuse-field.test.ts checks the strong-diffuse case.
     for (const r of runs) {
       expect(
         r.diffuseError,
         `rms error: fit ${r.diffuseError}, median filter ${r.medianFilterError}`,
-      ).toBeLessThan(1.1 * r.medianFilterError);
+      ).toBeLessThan(r.medianFilterError);
     }
   });
 

@@ -334,6 +334,7 @@ describe('cancel, events and failure', () => {
     ...fastSettings,
     maxIterations: 20000,
     absoluteDecrease: 1e-9,
+    settleTolerance: 1e-9,
     preset: 'deep-search',
   };
   // The slow fits run on a 192² image: on 64² even this budget ends within a second on a fast machine.

@@ -70,8 +70,9 @@ afterAll(async () => {
 it('completes once after its worker is killed mid-run', async () => {
   const bytesBefore = (await User.query().findById(f.owner.id))!.bytesUsed;
   const first = startWorker('worker 1');
-  // The default iteration budget: a few seconds of fitting, time enough to kill it half-way.
-  const settings = { ...fastSettings, maxIterations: 300 };
+  // The default iteration budget spent in full (no settle stop): a few seconds of fitting, time enough to kill
+  // it half-way.
+  const settings = { ...fastSettings, maxIterations: 300, settleTolerance: 1e-9 };
   const created = await owner.post(`/api/images/${f.imageId}/runs`, { settings });
   expect(created.status).toBe(202);
   const runId = created.body.id as number;

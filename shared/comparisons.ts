@@ -6,7 +6,7 @@
 import { z } from 'zod';
 
 import { componentNameSchema, runSummarySchema } from './runs';
-import { stableSettingsJson, type ResolvedSeparationSettings } from './separation-settings';
+import { stableSettingsJson } from './separation-settings';
 
 export const COMPARISON_MIN_RUNS = 2;
 export const COMPARISON_MAX_RUNS = 4;
@@ -53,8 +53,12 @@ export type UpdateComparisonRequest = z.infer<typeof updateComparisonRequestSche
 
 export const comparisonIdParamsSchema = z.object({ id: z.coerce.number().int().positive() });
 
-/** Labels (and units) of the resolved settings, as the settings-difference table shows them. */
-export const SETTING_LABELS: Record<keyof ResolvedSeparationSettings, { label: string; unit?: string }> = {
+/**
+ * Labels (and units) of the resolved settings, as the settings-difference table shows them, in table order.
+ * Keyed by name rather than typed to ResolvedSeparationSettings, so that a setting added later still shows
+ * (under its own name, after these) before a label is written for it.
+ */
+export const SETTING_LABELS: Record<string, { label: string; unit?: string }> = {
   preset: { label: 'Preset' },
   likelihood: { label: 'Noise model' },
   psf: { label: 'PSF (FWHM major × minor, position angle)', unit: 'px, °' },
@@ -68,9 +72,10 @@ export const SETTING_LABELS: Record<keyof ResolvedSeparationSettings, { label: s
   seedRounds: { label: 'Seeding rounds' },
   maxIterations: { label: 'Iteration budget of the final stage' },
   absoluteDecrease: { label: 'Stopping decrease per iteration', unit: 'nats' },
+  settleTolerance: { label: 'Settling tolerance over 10 iterations', unit: 'noise σ' },
 };
 
-const SETTING_ORDER = Object.keys(SETTING_LABELS) as (keyof ResolvedSeparationSettings)[];
+const SETTING_ORDER = Object.keys(SETTING_LABELS);
 
 /** A setting's value as the table shows it; null means the run estimated it (or took it from the header). */
 export function formatSettingValue(key: string, value: unknown): string {
@@ -110,7 +115,7 @@ export function settingsDifference(settings: readonly Record<string, unknown>[])
     const values = settings.map((entry) => entry[key] ?? null);
     const texts = new Set(values.map((value) => stableSettingsJson(value)));
     if (texts.size <= 1) continue;
-    const meta = SETTING_LABELS[key as keyof ResolvedSeparationSettings];
+    const meta = SETTING_LABELS[key];
     out.push({
       key,
       label: meta?.label ?? key,

@@ -2,7 +2,7 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { flushPromises, mount, type VueWrapper } from '@vue/test-utils';
 import { Quasar } from 'quasar';
 
-import { formatSettingValue, settingsDifference } from '@shared/comparisons';
+import { formatSettingValue, SETTING_LABELS, settingsDifference } from '@shared/comparisons';
 import { resolveSettings } from '@shared/separation-settings';
 import SettingsDifferenceTable from '@/components/comparisons/SettingsDifferenceTable.vue';
 import SkyViewer from '@/components/viewer/SkyViewer.vue';
@@ -56,6 +56,10 @@ describe('settings difference (shared/comparisons.ts)', () => {
       ['extra', 'extra', ['1', '2']],
     ]);
     expect(settingsDifference([{ threshold: 5 }, { threshold: 5 }])).toEqual([]);
+  });
+  it('has a label for every resolved setting', () => {
+    const unlabelled = Object.keys(resolveSettings({})).filter((key) => !SETTING_LABELS[key]);
+    expect(unlabelled).toEqual([]);
   });
   it('words the special values', () => {
     expect(formatSettingValue('psf', null)).toBe('from the image header');

@@ -30,6 +30,7 @@ import {
 } from './common-grid';
 import { jointFit, type JointFitResult } from './joint-fit';
 import { buildResampler } from './resample';
+import { polishScales } from './scale-polish';
 import { parseBrightnessUnit, unitGains } from './units';
 
 export interface JointInputImage {
@@ -64,6 +65,11 @@ export interface JointOptions {
   gridFactor?: number;
   /** @default true */
   fitScales?: boolean;
+  /**
+   * Re-estimate the scale factors with the catalogue's refined fluxes in place of the pixel-grid compact field
+   * (scale-polish.ts). @default true
+   */
+  polishScales?: boolean;
   /** Stage change test in σ (joint-fit.ts). @default 0.02 */
   changeTolerance?: number;
   onProgress?: (p: {
@@ -93,7 +99,8 @@ export interface JointImageResult {
   pixelsUsed: number;
   /** Valid pixels left out because the common grid does not cover them. */
   pixelsOutside: number;
-  scale: { value: number; error: number; fixed: boolean };
+  /** c_i with its error; mapValue is the joint MAP's value before the re-estimate of scale-polish.ts. */
+  scale: { value: number; error: number; fixed: boolean; mapValue: number };
   diffuse: Float32Array;
   compact: Float32Array;
   model: Float32Array;
@@ -403,7 +410,7 @@ export async function separateJoint(
   const k = fit.sharpest;
   const rk = prepared[k]!;
   const imgK = images[k]!;
-  const scaleK = fit.scales[k]!.value * gainsOut.gains[k]!;
+  let scaleK = fit.scales[k]!.value * gainsOut.gains[k]!;
   const compactK = new Float64Array(imgK.width * imgK.height);
   rk.resampler.apply(fit.compactSky, compactK);
   for (let j = 0; j < compactK.length; j++) compactK[j] = compactK[j]! * scaleK;
@@ -423,6 +430,43 @@ export async function separateJoint(
     beamAreaPx: k === 0 && perBeam ? refBeamArea : null,
     pedestal: fit.pedestal * scaleK * rk.pixelArea,
   });
+  const mapScales = fit.scales.map((c) => c.value);
+  if ((options.polishScales ?? true) && options.fitScales !== false && catalogue.length > 0) {
+    const polished = polishScales({
+      width: grid.width,
+      height: grid.height,
+      paddedWidth: fit.paddedWidth,
+      paddedHeight: fit.paddedHeight,
+      compactSky: fit.compactSky,
+      pedestal: fit.pedestal,
+      sources: catalogue.map((c) => ({ x: c.x - 1, y: c.y - 1, flux: c.flux })),
+      toCommon: rk.toCommon,
+      catalogueScale: scaleK,
+      catalogueFwhm: psfFwhmPx(psfs[k]!.common).major,
+      images: images.map((_, i) => ({
+        data: prepared[i]!.data,
+        valid: prepared[i]!.valid,
+        noise: prepared[i]!.noise,
+        diffuse: fit.perImage[i]!.diffuse,
+        commonPsf: psfs[i]!.common,
+        resampler: prepared[i]!.resampler,
+        gain: gainsOut.gains[i]!,
+        scale: fit.scales[i]!.value,
+      })),
+      scaleSigma: Math.log(1 + scalePriorWidth),
+    });
+    polished.scales.forEach((value, i) => {
+      if (i === 0) return;
+      const ratio = value / fit.scales[i]!.value;
+      const parts = fit.perImage[i]!;
+      for (const a of [parts.model, parts.diffuse, parts.compact])
+        for (let j = 0; j < a.length; j++) a[j] = a[j]! * ratio;
+      fit.scales[i]!.value = value;
+      fit.scales[i]!.error *= ratio;
+    });
+    // the catalogue image's fluxes are in its own values; its c·g converts them to the reference's
+    scaleK = fit.scales[k]!.value * gainsOut.gains[k]!;
+  }
   if (k !== 0)
     catalogue = toReference(catalogue, wcss[k]!, refWcs, scaleK, perBeam ? refBeamArea : null, [
       names[k]!,
@@ -465,6 +509,7 @@ export async function separateJoint(
         value: fit.scales[i]!.value,
         error: fit.scales[i]!.error,
         fixed: i === 0 || options.fitScales === false,
+        mapValue: mapScales[i]!,
       },
       diffuse: toFloat32(parts.diffuse),
       compact: toFloat32(parts.compact),

@@ -96,7 +96,7 @@ describe('npm run separate with several images', () => {
     expect(record.inputs[0].noise.source).toBe('estimated');
     // Jy/beam in both: the gain is the ratio of the beam areas in their own pixels, (4.5 / 3)² = 2.25
     expect(record.inputs[1].unitGain).toBeCloseTo(2.25, 6);
-    expect(record.inputs[0].fluxScale).toEqual({ value: 1, error: 0, fixed: true });
+    expect(record.inputs[0].fluxScale).toMatchObject({ value: 1, error: 0, fixed: true });
     expect(record.inputs[1].fluxScale.error).toBeGreaterThan(0);
     expect(Math.abs(record.inputs[1].fluxScale.value - 1.07)).toBeLessThan(0.02);
     expect(record.fluxScalePriorWidth).toBe(0.1);

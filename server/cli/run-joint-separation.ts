@@ -16,7 +16,7 @@ import type { CatalogueProvenance } from '../catalogue/catalogue-table';
 import { writeCatalogueFiles, type CatalogueFormat } from '../catalogue/write-catalogue-files';
 import { readImageAsync, type SkyImage } from '../engine/io/read-image';
 import { writeFits } from '../engine/io/write-fits';
-import { commonGridHeader } from '../engine/joint/common-grid';
+import { commonGridDropsSip, commonGridHeader } from '../engine/joint/common-grid';
 import {
   separateJoint,
   type JointSeparationResult,
@@ -96,6 +96,11 @@ export async function runJointSeparation(request: JointRunRequest): Promise<Join
     cards: [{ keyword: 'HISTORY', comment: `Skysieve joint fit: ${what}` }],
   });
   const gridHeader = commonGridHeader(result.gridInfo, reference.wcs!, reference.header);
+  if (commonGridDropsSip(result.gridInfo, reference.header)) {
+    result.warnings.push(
+      'The common-grid FITS files leave out the reference image’s SIP distortion (their WCS is the linear part only)',
+    );
+  }
   const contents: [string, Uint8Array | string][] = [
     [
       'common_diffuse_sky.fits',

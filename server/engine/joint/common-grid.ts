@@ -65,7 +65,11 @@ export function commonGrid(
   };
 }
 
-/** Header cards of the common grid: the reference's WCS cards with CRPIX and the CD matrix rescaled by f. */
+/**
+ * Header cards of the common grid: the reference's WCS cards with CRPIX and the CD matrix rescaled by f. SIP
+ * distortion cards cannot be rescaled this simply and are left out (the fit itself maps through the reference's
+ * full WCS; commonGridDropsSip tells the caller to say so).
+ */
 export function commonGridHeader(
   grid: CommonGrid,
   reference: Wcs,
@@ -90,6 +94,11 @@ export function commonGridHeader(
     { keyword: 'CD2_1', value: m21 / f, real: true },
     { keyword: 'CD2_2', value: m22 / f, real: true },
   ];
+}
+
+/** True when the written common-grid header leaves out the reference's SIP distortion. */
+export function commonGridDropsSip(grid: CommonGrid, header: readonly HeaderCard[]): boolean {
+  return grid.factor !== 1 && header.some((c) => c.keyword === 'A_ORDER');
 }
 
 const D2R = Math.PI / 180;

@@ -122,6 +122,21 @@ describe('npm run separate with several images', () => {
     expect(header).toMatch(/flux_density/);
   }, 180_000);
 
+  it('refuses a per-image option it cannot read, naming it', () => {
+    const run = runCli([
+      join(dir, 'sharp.fits'),
+      join(dir, 'smooth.fits'),
+      '--out',
+      join(dir, 'x'),
+      '--likelihood',
+      '2:counts',
+    ]);
+    expect(run.status).toBe(1);
+    expect(run.stderr.trim()).toBe(
+      '--likelihood needs gaussian or poisson (or I:KIND for image I), got "counts"',
+    );
+  }, 60_000);
+
   it('refuses an image without a celestial WCS with exit code 1 and one line', () => {
     const out = join(dir, 'out-bad');
     const run = runCli([join(dir, 'sharp.fits'), join(dir, 'no-wcs.fits'), '--out', out]);

@@ -152,6 +152,8 @@ export const useRunsStore = defineStore('runs', () => {
   async function load(runId: number): Promise<RunDetail | null> {
     loading.value = true;
     error.value = null;
+    // Another run's state must not stand in for this one while it loads (the page would show it under this URL).
+    if (run.value?.id !== runId) run.value = null;
     try {
       run.value = await runApi.get(runId);
       return run.value;

@@ -1,7 +1,7 @@
 /**
  * The astronomer's journey in a real browser (Debian's Chromium through playwright-core, headless) against the real
  * app with a separation worker (tests/e2e/support/browser-app.ts): sign in, open a project and its image library,
- * drop a simulated 96 × 96 FITS image (known truth) onto the drop zone, see it in the table and its header cards;
+ * drop a simulated 256 × 256 FITS image (known truth) onto the drop zone, see it in the table and its header cards;
  * set up a run (a preset and one advanced setting), launch it, follow its progress until it finishes, switch
  * components, select a catalogue row and find the viewer centred on its marker, download the CSV and read it back;
  * launch a second run with other settings on the same image; then, as the administrator, lower the astronomer's
@@ -51,6 +51,11 @@ let firstRunId = 0;
 let sourceCount = 0;
 let field: { sky: SimulatedSky; fits: Buffer };
 
+/**
+ * Side of the first image: large enough that its fit outlasts a few progress updates (written and streamed every
+ * 0.5 s), so the running state can be watched, small enough to finish in seconds.
+ */
+const fieldSize = 256;
 /** A second field (another seed, so not a duplicate of the first file). */
 const second = simulatedField(29);
 const secondFile = () => ({ name: secondFileName, mimeType: 'application/fits', buffer: second.fits });
@@ -79,7 +84,7 @@ async function expectReadable(theme: string): Promise<void> {
 }
 
 beforeAll(async () => {
-  field = simulatedField(17);
+  field = simulatedField(17, fieldSize);
   // The worker starts after the first launch, so the queued state can be seen before the fit begins.
   app = await startBrowserApp({ artifacts: 'astronomer-journey', worker: false });
   page = app.page;
@@ -155,7 +160,7 @@ describe('astronomer journey in the browser', () => {
     await expect.poll(() => row.getAttribute('data-state'), { timeout: 20_000 }).toBe('done');
 
     const tableRow = page.getByTestId('image-table').locator('tbody tr').filter({ hasText: 'lyra-tile7-a' });
-    await expect.poll(() => tableRow.textContent()).toContain('96 × 96');
+    await expect.poll(() => tableRow.textContent()).toContain(`${fieldSize} × ${fieldSize}`);
     expect(await tableRow.textContent()).toContain('Jy/beam');
     expect(await overflowsHorizontally(page)).toBe(false);
     await app.shot('01-library');
@@ -165,7 +170,8 @@ describe('astronomer journey in the browser', () => {
     const detail = page.getByTestId('image-detail');
     await expect.poll(() => detail.getByTestId('header-cards').textContent()).toContain('NAXIS1');
     const cards = await detail.getByTestId('header-cards').innerText();
-    for (const expected of [/NAXIS1\s+96/, /NAXIS2\s+96/, /CTYPE1\s+RA---SIN/, /BUNIT\s+Jy\/beam/, /BMAJ\s+/])
+    const naxis = [new RegExp(`NAXIS1\\s+${fieldSize}\\b`), new RegExp(`NAXIS2\\s+${fieldSize}\\b`)];
+    for (const expected of [...naxis, /CTYPE1\s+RA---SIN/, /BUNIT\s+Jy\/beam/, /BMAJ\s+/])
       expect(cards).toMatch(expected);
     expect(await detail.getByTestId('wcs-summary').textContent()).toContain('SIN');
     await detail.getByRole('textbox', { name: 'Search cards' }).fill('BMAJ');
@@ -177,7 +183,9 @@ describe('astronomer journey in the browser', () => {
     await page.getByTestId('new-run').click();
     await page.waitForURL(/\/images\/\d+\/runs\/new$/);
     imageId = Number(/\/images\/(\d+)\//.exec(page.url())![1]);
-    await expect.poll(() => page.getByTestId('setup-image').textContent()).toContain('96 × 96 pixels');
+    await expect
+      .poll(() => page.getByTestId('setup-image').textContent())
+      .toContain(`${fieldSize} × ${fieldSize} pixels`);
     await expect.poll(() => page.getByTestId('earlier-runs').textContent()).toContain('No runs yet');
 
     const estimateBefore = await page.getByTestId('estimate').textContent();
@@ -204,8 +212,8 @@ describe('astronomer journey in the browser', () => {
     await expect.poll(status).toBe('Waiting for a worker');
     expect(await page.getByTestId('run-progress').isVisible()).toBe(true);
 
-    // The fit of 96 × 96 pixels takes about two seconds, with progress written and streamed every 0.5 s: record
-    // every state of the progress section in the page itself, so no update is missed between two looks.
+    // The fit of 256 × 256 pixels takes about four seconds here, with progress written and streamed every 0.5 s:
+    // record every state of the progress section in the page itself, so no update is missed between two looks.
     // The browser's own body element keeps the list (the page's globals are not typed in this Node program).
     type Recorder = { progressSeen: string[] };
     const body = page.locator('body');
@@ -221,10 +229,12 @@ describe('astronomer journey in the browser', () => {
     const progressSeen = () => body.evaluate((element) => (element as unknown as Recorder).progressSeen);
     const iterations = async () =>
       (await progressSeen()).map((text) => Number(/Iteration:\s*(\d+)/.exec(text)?.[1] ?? 0));
-    // Screenshot as soon as the fit reports an iteration (or, on a very fast machine, right after it ended).
+    // Screenshot once the fit reports iterations and the live chart is drawn (or, on a very fast machine, right
+    // after the run ended).
     await page.waitForFunction(
       (element) =>
-        (element as unknown as Recorder).progressSeen.some((text) => /Iteration:\s*[1-9]/.test(text)) ||
+        ((element as unknown as Recorder).progressSeen.some((text) => /Iteration:\s*[1-9]/.test(text)) &&
+          element.querySelector('[data-test="run-progress"] .main-svg') !== null) ||
         element.querySelector('[data-test="run-progress"]') === null,
       await body.elementHandle(),
       { polling: 'raf', timeout: 60_000 },
@@ -340,6 +350,9 @@ describe('astronomer journey in the browser', () => {
     await page.waitForURL(/\/runs\/\d+$/);
     const secondRunId = Number(/\/runs\/(\d+)$/.exec(page.url())![1]);
     expect(secondRunId).not.toBe(firstRunId);
+    // The first run's state, still in the store, must not stand in for the new run while it loads.
+    expect(await page.locator('h1').allTextContents()).not.toContain(`Run ${firstRunId}`);
+    await expect.poll(() => page.locator('h1').first().textContent()).toBe(`Run ${secondRunId}`);
     await expect.poll(status, { timeout: 90_000, interval: 250 }).toBe('Finished');
 
     const settings = await page.getByTestId('settings-table').innerText();

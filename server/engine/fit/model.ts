@@ -249,14 +249,7 @@ export class SeparationModel {
     // compact: u at the free pixels (all of them unless fixCompact chose some) and its prior
     let prior = this.priorFixed;
     if (active) {
-      for (let j = 0; j < active.length; j++) {
-        const i = active[j]!;
-        const y = (i / width) | 0;
-        const t = this.clipTau(tau[i]!);
-        const u = Math.exp(t);
-        uPadded[i + y * (pw - width)] = u;
-        prior += alpha * t + q / u;
-      }
+      prior += compactAt(active, tau, uPadded, width, pw, this.tauMin, this.tauMax, alpha, q);
     } else {
       for (let y = 0; y < height; y++) {
         for (let x = 0; x < width; x++) {
@@ -277,37 +270,10 @@ export class SeparationModel {
     this.convolver.apply(total, model);
     // likelihood and its derivative r in the model, on the padded grid (0 outside valid image pixels)
     const r = this.residualDerivative;
-    let like = 0;
-    if (noise.kind === 'gaussian') {
-      const w = noise.inverseVariance!;
-      for (let y = 0; y < height; y++) {
-        for (let x = 0; x < width; x++) {
-          const i = y * width + x;
-          if (!valid[i]) {
-            r[y * pw + x] = 0;
-            continue;
-          }
-          const diff = model[y * pw + x]! - data[i]!;
-          like += 0.5 * w[i]! * diff * diff;
-          r[y * pw + x] = w[i]! * diff;
-        }
-      }
-    } else {
-      const eps = this.floor;
-      for (let y = 0; y < height; y++) {
-        for (let x = 0; x < width; x++) {
-          const i = y * width + x;
-          if (!valid[i]) {
-            r[y * pw + x] = 0;
-            continue;
-          }
-          const lambda = Math.max(model[y * pw + x]!, 0) + eps;
-          const d = data[i]!;
-          like += lambda - (d > 0 ? d * Math.log(lambda) : 0);
-          r[y * pw + x] = 1 - d / lambda;
-        }
-      }
-    }
+    const like =
+      noise.kind === 'gaussian'
+        ? gaussianTerm(model, data, valid, noise.inverseVariance!, r, width, height, pw)
+        : poissonTerm(model, data, valid, this.floor, r, width, height, pw);
     const f = like + prior;
     if (!gXi && !gTau) return [f, 0];
     // adjoint: g_t = Kᵀ ⋆ r
@@ -315,12 +281,10 @@ export class SeparationModel {
     this.convolver.adjoint(r, gt);
     let gMu = 0;
     if (gTau) {
-      if (active) {
-        for (let j = 0; j < active.length; j++) {
-          const i = active[j]!;
-          const k = i + ((i / width) | 0) * (pw - width);
-          gTau[i] = this.tauGradient(tau[i]!, gt[k]!, uPadded[k]!, blocks.compact);
-        }
+      if (active && blocks.compact) {
+        compactGradientAt(active, tau, gt, uPadded, gTau, width, pw, this.tauMin, this.tauMax, alpha, q);
+      } else if (active) {
+        for (const i of active) gTau[i] = 0;
       } else {
         for (let y = 0; y < height; y++) {
           for (let x = 0; x < width; x++) {
@@ -364,6 +328,117 @@ export class SeparationModel {
       }
     }
     return out;
+  }
+}
+
+/** ½ Σ w (m − d)² over valid pixels; r = w (m − d) there and 0 at masked ones (padded grid). */
+function gaussianTerm(
+  model: Float64Array,
+  data: Float64Array,
+  valid: Uint8Array,
+  w: Float64Array,
+  r: Float64Array,
+  width: number,
+  height: number,
+  pw: number,
+): number {
+  let like = 0;
+  for (let y = 0; y < height; y++) {
+    const row = y * width;
+    const prow = y * pw;
+    for (let x = 0; x < width; x++) {
+      const i = row + x;
+      if (valid[i] === 0) {
+        r[prow + x] = 0;
+        continue;
+      }
+      const wi = w[i]!;
+      const diff = model[prow + x]! - data[i]!;
+      like += 0.5 * wi * diff * diff;
+      r[prow + x] = wi * diff;
+    }
+  }
+  return like;
+}
+
+/** Σ (λ − d log λ) over valid pixels, λ = max(m, 0) + ε; r = 1 − d/λ there and 0 at masked ones. */
+function poissonTerm(
+  model: Float64Array,
+  data: Float64Array,
+  valid: Uint8Array,
+  eps: number,
+  r: Float64Array,
+  width: number,
+  height: number,
+  pw: number,
+): number {
+  let like = 0;
+  for (let y = 0; y < height; y++) {
+    const row = y * width;
+    const prow = y * pw;
+    for (let x = 0; x < width; x++) {
+      const i = row + x;
+      if (valid[i] === 0) {
+        r[prow + x] = 0;
+        continue;
+      }
+      const lambda = Math.max(model[prow + x]!, 0) + eps;
+      const d = data[i]!;
+      like += lambda - (d > 0 ? d * Math.log(lambda) : 0);
+      r[prow + x] = 1 - d / lambda;
+    }
+  }
+  return like;
+}
+
+/** u = exp(clip τ) at the listed pixels into the padded grid; returns their prior Σ (α τ + q/u). */
+function compactAt(
+  active: Int32Array,
+  tau: Float64Array,
+  uPadded: Float64Array,
+  width: number,
+  pw: number,
+  tauMin: number,
+  tauMax: number,
+  alpha: number,
+  q: number,
+): number {
+  let prior = 0;
+  for (let j = 0; j < active.length; j++) {
+    const i = active[j]!;
+    const raw = tau[i]!;
+    const t = raw < tauMin ? tauMin : raw > tauMax ? tauMax : raw;
+    const u = Math.exp(t);
+    uPadded[i + ((i / width) | 0) * (pw - width)] = u;
+    prior += alpha * t + q / u;
+  }
+  return prior;
+}
+
+/** ∂f/∂τ = gt·u + α − q/u at the listed pixels (0 outside the clip range). */
+function compactGradientAt(
+  active: Int32Array,
+  tau: Float64Array,
+  gt: Float64Array,
+  uPadded: Float64Array,
+  gTau: Float64Array,
+  width: number,
+  pw: number,
+  tauMin: number,
+  tauMax: number,
+  alpha: number,
+  q: number,
+): void {
+  for (let j = 0; j < active.length; j++) {
+    const i = active[j]!;
+    const raw = tau[i]!;
+    if (raw < tauMin || raw > tauMax) {
+      gTau[i] = 0;
+      continue;
+    }
+    const k = i + ((i / width) | 0) * (pw - width);
+    const u = uPadded[k]!;
+    gTau[i] = gt[k]! * u + alpha - q / u;
   }
 }
 

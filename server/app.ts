@@ -24,6 +24,7 @@ import { injectionRoutes } from './injection/injection.routes';
 import { buildOpenApiDocument } from './openapi';
 import { projectRoutes } from './projects/projects.routes';
 import { quicklookRoutes } from './runs/quicklook.routes';
+import { jointRunRoutes } from './runs/joint-runs.routes';
 import { runRoutes } from './runs/runs.routes';
 import { storageRoutes } from './storage/storage.routes';
 import { tokenRoutes } from './tokens/tokens.routes';
@@ -83,6 +84,7 @@ export function createApp(ctx: AppContext, options: AppOptions = {}): SkysieveAp
     ...imageRoutes(ctx),
     ...storageRoutes(ctx),
     ...runRoutes(ctx),
+    ...jointRunRoutes(ctx),
     ...quicklookRoutes(ctx),
     ...injectionRoutes(ctx),
     ...crossMatchRoutes(ctx),

@@ -5,6 +5,7 @@
 import { z } from 'zod';
 
 import { catalogueSourceSchema, sourceFlagSchema } from './catalogue';
+import { jointRunInfoSchema, runKindSchema } from './joint-runs';
 import { separationSettingsInputSchema } from './separation-settings';
 
 export const runStatusSchema = z.enum(['queued', 'running', 'succeeded', 'failed', 'cancelled']);
@@ -70,6 +71,8 @@ export const runSummarySchema = z.object({
   attempts: z.number().int().nonnegative(),
   cancelRequested: z.boolean(),
   sourceCount: z.number().int().nullable(),
+  /** 'joint' for a fit of several images together (shared/joint-runs.ts); imageId is then the reference. */
+  kind: runKindSchema.optional(),
   timings: z.object({
     queuedAt: z.string(),
     startedAt: z.string().nullable(),
@@ -132,6 +135,8 @@ export const runDetailSchema = runSummarySchema.extend({
     z.object({ name: componentNameSchema, width: z.number().int(), height: z.number().int() }),
   ),
   resultBytes: z.number().int(),
+  /** Joint runs only: the input images (reference first), their scale factors, the common grid. */
+  joint: jointRunInfoSchema.nullable().optional(),
 });
 export type RunDetail = z.infer<typeof runDetailSchema>;
 
@@ -208,6 +213,8 @@ export const componentQuerySchema = z.object({
   format: z.enum(['float32', 'fits']).default('float32'),
   /** Longest side of the float32 view; the plane is block-averaged down to fit. */
   maxSize: z.coerce.number().int().min(16).max(8192).optional(),
+  /** Joint runs: the input image by position (1 = the reference, the default). */
+  image: z.coerce.number().int().min(1).max(4).optional(),
 });
 
 export const cutoutQuerySchema = z.object({

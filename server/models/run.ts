@@ -1,5 +1,6 @@
 import type { Modifiers, RelationMappings } from 'objection';
 
+import type { JointResults, RunKind } from '../../shared/joint-runs';
 import type { RunDiagnostics, RunProgress, RunProvenance, RunStatus } from '../../shared/runs';
 import { BaseModel } from './base-model';
 
@@ -8,8 +9,12 @@ export class Run extends BaseModel {
   static override tableName = 'runs';
 
   id!: number;
+  /** The reference image (image 1) for a joint run. */
   imageId!: number;
   projectId!: number;
+  kind!: RunKind;
+  /** Joint runs, once succeeded: scale factors, per-image fit details, the common grid. */
+  jointResults!: JointResults | null;
   createdBy!: number | null;
   status!: RunStatus;
   requestedSettings!: Record<string, unknown>;
@@ -36,6 +41,7 @@ export class Run extends BaseModel {
     'phasesMs',
     'provenance',
     'diagnostics',
+    'jointResults',
   ];
 
   static override modifiers: Modifiers = {
@@ -46,6 +52,8 @@ export class Run extends BaseModel {
           'id',
           'imageId',
           'projectId',
+          'kind',
+          'jointResults',
           'createdBy',
           'status',
           'requestedSettings',
@@ -92,6 +100,7 @@ export class Run extends BaseModel {
       projectId: { type: 'integer' },
       createdBy: { type: ['integer', 'null'] },
       status: { enum: ['queued', 'running', 'succeeded', 'failed', 'cancelled'] },
+      kind: { enum: ['single', 'joint'] },
       settingsDigest: { type: 'string', minLength: 1 },
       errorMessage: { type: ['string', 'null'] },
       attempts: { type: 'integer', minimum: 0 },

@@ -11,6 +11,7 @@
  */
 import type { Knex } from 'knex';
 
+import type { JointImageOptions } from '../../shared/joint-runs';
 import type { RunProgress, RunProvenance } from '../../shared/runs';
 import type { AppContext } from '../context';
 import type { HeaderCard } from '../engine/io/header-card';
@@ -69,6 +70,42 @@ async function loadImage(knex: Knex, imageId: number): Promise<ImageInput | unde
     )) as ImageInput | undefined;
 }
 
+/** The stored mask, or null when it is absent (every pixel valid). */
+function maskOf(image: ImageInput): Uint8Array | null {
+  const mask = new Uint8Array(image.mask);
+  return mask.length === image.width * image.height ? mask : null;
+}
+
+type JointInputs =
+  | { missing: string }
+  | {
+      others: { position: number; image: ImageInput }[];
+      /** By position − 1. */
+      options: JointImageOptions[];
+    };
+
+/** Images 2…n of a joint run with every image's options (run_images), or why the run cannot start. */
+async function loadJointInputs(knex: Knex, runId: number): Promise<JointInputs> {
+  const rows = (await knex('run_images').where('runId', runId).orderBy('position').select('*')) as {
+    position: number;
+    imageId: number;
+    options: JointImageOptions;
+  }[];
+  const others: { position: number; image: ImageInput }[] = [];
+  for (const row of rows.filter((r) => r.position > 1)) {
+    const image = await loadImage(knex, row.imageId);
+    if (!image) return { missing: `Image ${row.position} of this joint run no longer exists.` };
+    others.push({ position: row.position, image });
+  }
+  if (others.length + 1 !== rows.length || others.length < 1) {
+    return { missing: 'An input image of this joint run no longer exists.' };
+  }
+  return {
+    others,
+    options: rows.map((row) => row.options ?? {}),
+  };
+}
+
 /** The stored little-endian float32 plane as an aligned Float32Array of its own (transferable). */
 function pixelPlane(bytes: Buffer, count: number): Float32Array {
   if (bytes.byteLength !== count * 4) {
@@ -106,8 +143,15 @@ export async function processRunJob(
     const run = (await trx('runs')
       .where('id', runId)
       .forUpdate()
-      .first('status', 'cancelRequested', 'imageId', 'requestedSettings')) as
-      { status: string; cancelRequested: boolean; imageId: number; requestedSettings: unknown } | undefined;
+      .first('status', 'cancelRequested', 'imageId', 'requestedSettings', 'kind')) as
+      | {
+          status: string;
+          cancelRequested: boolean;
+          imageId: number;
+          requestedSettings: unknown;
+          kind: 'single' | 'joint';
+        }
+      | undefined;
     if (!run || (run.status !== 'queued' && run.status !== 'running')) return null;
     if (run.cancelRequested) {
       await trx('runs')
@@ -130,9 +174,10 @@ export async function processRunJob(
   if (!claimed) return;
 
   const image = await loadImage(knex, claimed.imageId);
-  if (!image) {
-    if (await finish(knex, runId, 'failed', 'The image of this run no longer exists.'))
-      await notifyRunFinished(ctx, knex, runId);
+  const joint = claimed.kind === 'joint' ? await loadJointInputs(knex, runId) : null;
+  if (!image || (joint && 'missing' in joint)) {
+    const message = joint && 'missing' in joint ? joint.missing : 'The image of this run no longer exists.';
+    if (await finish(knex, runId, 'failed', message)) await notifyRunFinished(ctx, knex, runId);
     return;
   }
 
@@ -188,6 +233,25 @@ export async function processRunJob(
         beam: readBeam(image.header),
         unit: image.unit,
         settings: claimed.requestedSettings,
+        ...(joint && 'others' in joint
+          ? {
+              joint: {
+                referenceName: image.name,
+                others: joint.others.map(({ image: other }) => ({
+                  name: other.name,
+                  width: other.width,
+                  height: other.height,
+                  pixels: pixelPlane(other.pixels, other.width * other.height),
+                  mask: maskOf(other),
+                  header: other.header,
+                  beam: readBeam(other.header),
+                  unit: other.unit,
+                })),
+                perImage: joint.options,
+                inputSha256: [image.contentSha256, ...joint.others.map((o) => o.image.contentSha256)],
+              },
+            }
+          : {}),
       },
       { signal: controller.signal, onProgress: (p) => (latest = p) },
     );

@@ -78,7 +78,7 @@ export function residualHistogram(residualNorm: Float32Array): RunDiagnostics['r
 }
 
 /** At most `limit` points of the trace, evenly thinned, always keeping each stage's last iteration. */
-function thinTrace(trace: SeparationResult['trace'], limit = 2000): RunDiagnostics['convergence'] {
+export function thinTrace(trace: SeparationResult['trace'], limit = 2000): RunDiagnostics['convergence'] {
   if (trace.length <= limit) return trace.map((t) => ({ ...t }));
   const step = Math.ceil(trace.length / limit);
   return trace.filter((t, i) => i % step === 0 || trace[i + 1]?.stage !== t.stage).map((t) => ({ ...t }));

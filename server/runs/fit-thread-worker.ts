@@ -6,10 +6,12 @@
  */
 import { parentPort, workerData } from 'node:worker_threads';
 
+import { separateJoint } from '../engine/joint/separate-joint';
 import { separate, type SeparationProgress } from '../engine/separate';
 import { parseWcs } from '../engine/wcs/wcs';
 import { buildDiagnostics, progressEstimator } from './fit-diagnostics';
-import type { FitThreadData, FitThreadMessage, FitThreadResult } from './fit-thread';
+import type { FitThreadData, FitThreadInput, FitThreadMessage, FitThreadResult } from './fit-thread';
+import { jointThreadResult, resultBuffers } from './joint-thread-result';
 
 const data = workerData as FitThreadData;
 const port = parentPort;
@@ -32,6 +34,11 @@ async function main(): Promise<void> {
     post({ type: 'progress', progress: estimate(p) });
   };
   try {
+    if (input.joint) {
+      const out = await fitJoint(input, input.joint, onProgress, controller.signal);
+      post({ type: 'result', result: out }, resultBuffers(out));
+      return;
+    }
     const result = await separate(
       {
         width: input.width,
@@ -72,6 +79,31 @@ async function main(): Promise<void> {
     const cancelled = controller.signal.aborted;
     post({ type: 'error', message: error instanceof Error ? error.message : String(error), cancelled });
   }
+}
+
+/** A joint run: image 1 is the input's own image, images 2…n come in `joint.others`. */
+async function fitJoint(
+  input: FitThreadInput,
+  joint: NonNullable<FitThreadInput['joint']>,
+  onProgress: (p: SeparationProgress) => void,
+  signal: AbortSignal,
+): Promise<FitThreadResult> {
+  const images = [{ ...input, name: joint.referenceName }, ...joint.others].map((image) => ({
+    name: image.name,
+    width: image.width,
+    height: image.height,
+    data: image.pixels,
+    mask: image.mask,
+    wcs: parseWcs(image.header),
+    beam: image.beam,
+    unit: image.unit,
+  }));
+  const result = await separateJoint(images, input.settings, {
+    perImage: joint.perImage,
+    onProgress: (p) => onProgress({ ...p, phase: 'fit' }),
+    signal,
+  });
+  return jointThreadResult(result, joint.inputSha256);
 }
 
 void main();

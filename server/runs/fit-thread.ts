@@ -7,6 +7,7 @@
 import { Worker } from 'node:worker_threads';
 
 import type { CatalogueSource } from '../../shared/catalogue';
+import type { JointImageComponent, JointImageOptions, JointResults } from '../../shared/joint-runs';
 import type { ComponentName, RunDiagnostics, RunProgress } from '../../shared/runs';
 import type { ResolvedSeparationSettings } from '../../shared/separation-settings';
 import type { HeaderCard } from '../engine/io/header-card';
@@ -25,6 +26,26 @@ export interface FitThreadInput {
   beam: Beam | null;
   unit: string | null;
   settings: unknown;
+  /** A joint run: the fields above are image 1 (the reference); these are images 2…n and the options. */
+  joint?: {
+    referenceName: string;
+    others: JointThreadImage[];
+    /** By position − 1 (index 0 = the reference). */
+    perImage: JointImageOptions[];
+    inputSha256: string[];
+  };
+}
+
+/** Another input image of a joint run (its pixels and mask are transferred like the reference's). */
+export interface JointThreadImage {
+  name: string;
+  width: number;
+  height: number;
+  pixels: Float32Array;
+  mask: Uint8Array | null;
+  header: HeaderCard[];
+  beam: Beam | null;
+  unit: string | null;
 }
 
 export interface FitThreadResult {
@@ -34,8 +55,20 @@ export interface FitThreadResult {
   settingsDigest: string;
   catalogue: CatalogueSource[];
   planes: Record<ComponentName, Float32Array>;
+  /** Planes whose size differs from width × height (a joint run's common-grid sky fields). */
+  planeSizes?: Partial<Record<ComponentName, { width: number; height: number }>>;
   diagnostics: RunDiagnostics;
   timings: Record<string, number>;
+  /** Joint runs: the planes of images 2…n and what the row keeps of the fit. */
+  joint?: {
+    imagePlanes: {
+      position: number;
+      width: number;
+      height: number;
+      planes: Record<JointImageComponent, Float32Array>;
+    }[];
+    results: JointResults;
+  };
 }
 
 export interface FitThreadData {
@@ -72,10 +105,10 @@ export function runFitInThread(
   if (options.signal?.aborted) return Promise.reject(new FitCancelledError());
   const cancelFlag = new SharedArrayBuffer(4);
   const data: FitThreadData = { input, cancelFlag, progressIntervalMs: options.progressIntervalMs ?? 250 };
-  const transfer = [
-    input.pixels.buffer as ArrayBuffer,
-    ...(input.mask ? [input.mask.buffer as ArrayBuffer] : []),
-  ];
+  const transfer = [input, ...(input.joint?.others ?? [])].flatMap((image) => [
+    image.pixels.buffer as ArrayBuffer,
+    ...(image.mask ? [image.mask.buffer as ArrayBuffer] : []),
+  ]);
   const worker = startThread(data, transfer);
   return new Promise<FitThreadResult>((resolve, reject) => {
     let settled = false;

@@ -2,8 +2,9 @@
  * Writing a finished run, exactly once: one transaction locks the run row, checks that it is still running (a
  * second worker that picked up an expired job, or a cancel, may have finished it), charges the result bytes to the
  * image uploader's quota (under their row lock, server/storage/quota.ts), inserts every source row and every
- * component plane, and marks the run succeeded. Any failure rolls all of it back: no duplicate source rows, no
- * half-written components, no quota drift.
+ * component plane (for a joint run also the planes of images 2…n and the scale factors), and marks the run
+ * succeeded. Any failure rolls all of it back: no duplicate source rows, no half-written components, no quota
+ * drift.
  */
 import type { Knex } from 'knex';
 
@@ -17,9 +18,11 @@ import type { FitThreadResult } from './fit-thread';
 export const SOURCE_ROW_BYTES = 128;
 
 /** The bytes charged for a result: every plane's float32 bytes plus the source rows. */
-export function resultBytes(result: Pick<FitThreadResult, 'planes' | 'catalogue'>): number {
+export function resultBytes(result: Pick<FitThreadResult, 'planes' | 'catalogue' | 'joint'>): number {
   let bytes = 0;
   for (const name of COMPONENT_NAMES) bytes += result.planes[name].byteLength;
+  for (const image of result.joint?.imagePlanes ?? [])
+    for (const plane of Object.values(image.planes)) bytes += plane.byteLength;
   return bytes + result.catalogue.length * SOURCE_ROW_BYTES;
 }
 
@@ -67,14 +70,30 @@ export async function storeRunResults(
     for (let i = 0; i < rows.length; i += 1000) await trx('run_sources').insert(rows.slice(i, i + 1000));
     for (const name of COMPONENT_NAMES) {
       const data = float32ToBytes(result.planes[name]);
+      const size = result.planeSizes?.[name] ?? { width: result.width, height: result.height };
       await trx('run_components').insert({
         runId,
         name,
-        width: result.width,
-        height: result.height,
+        width: size.width,
+        height: size.height,
         data,
         byteSize: data.byteLength,
       });
+    }
+    // A joint run: the planes of images 2…n (image 1's are the run's own components above).
+    for (const image of result.joint?.imagePlanes ?? []) {
+      for (const [name, plane] of Object.entries(image.planes)) {
+        const data = float32ToBytes(plane);
+        await trx('run_image_components').insert({
+          runId,
+          position: image.position,
+          name,
+          width: image.width,
+          height: image.height,
+          data,
+          byteSize: data.byteLength,
+        });
+      }
     }
     await trx('runs')
       .where('id', runId)
@@ -86,6 +105,7 @@ export async function storeRunResults(
         phasesMs: JSON.stringify(result.timings),
         provenance: JSON.stringify(provenance),
         diagnostics: JSON.stringify(result.diagnostics),
+        jointResults: result.joint ? JSON.stringify(result.joint.results) : null,
         resultBytes: bytes,
         chargedUserId: chargeTo,
         // A fit shorter than the progress write interval may have left no progress at all: end on the

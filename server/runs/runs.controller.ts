@@ -9,7 +9,7 @@ import { streamRunEvents, type RunEventOptions } from './run-events';
 import * as runs from './runs.service';
 
 type IdParams = { id: number };
-type ComponentQuery = { format: 'float32' | 'fits'; maxSize?: number };
+type ComponentQuery = { format: 'float32' | 'fits'; maxSize?: number; image?: number };
 type CutoutQuery = { x: number; y: number; size: number; plane: 'image' | ComponentName };
 
 function sendDownload(res: Response, download: runs.Download): void {
@@ -62,14 +62,17 @@ export function runsController(ctx: AppContext, eventOptions: RunEventOptions = 
     ) {
       const run = runOf(res);
       const { name } = req.params;
-      if (req.query.format === 'fits') return sendDownload(res, await runs.componentFits(ctx, run, name));
-      // Results never change once stored: the run, its digest, the plane and the size name the bytes.
-      const etag = `"run-${run.id}-${run.settingsDigest.slice(0, 16)}-${name}-${req.query.maxSize ?? 'full'}"`;
+      const position = req.query.image ?? 1;
+      if (req.query.format === 'fits')
+        return sendDownload(res, await runs.componentFits(ctx, run, name, position));
+      // Results never change once stored: the run, its digest, the image, the plane and the size name the bytes.
+      const image = position > 1 ? `-image${position}` : '';
+      const etag = `"run-${run.id}-${run.settingsDigest.slice(0, 16)}${image}-${name}-${req.query.maxSize ?? 'full'}"`;
       res.setHeader('ETag', etag);
       res.setHeader('Cache-Control', 'private, max-age=0, must-revalidate');
       if (run.status === 'succeeded' && req.headers['if-none-match'] === etag)
         return void res.status(304).end();
-      sendPlaneView(res, await runs.componentView(ctx.knex, run, name, req.query.maxSize));
+      sendPlaneView(res, await runs.componentView(ctx.knex, run, name, req.query.maxSize, position));
     },
     async cutout(req: ApiRequest<unknown, { id: number }, CutoutQuery>, res: Response) {
       res.json(await runs.cutout(ctx.knex, runOf(res), req.query));

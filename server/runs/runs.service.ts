@@ -32,6 +32,9 @@ import { Run } from '../models/run';
 import { bytesToFloat32, float32ToBytes } from '../models/run-component';
 import { RunSource } from '../models/run-source';
 import { runQueueOf } from '../queue/run-queue';
+import { commonGrid, commonGridHeader } from '../engine/joint/common-grid';
+import { parseWcs } from '../engine/wcs/wcs';
+import { jointImageHeader, jointRunInfo } from './joint-runs.service';
 import { quotaExceededMessage } from '../storage/quota';
 
 export function toRunSummary(run: Run): RunSummary {
@@ -46,6 +49,7 @@ export function toRunSummary(run: Run): RunSummary {
     attempts: run.attempts,
     cancelRequested: run.cancelRequested,
     sourceCount: run.sourceCount,
+    kind: run.kind ?? 'single',
     timings: {
       queuedAt: isoDate(run.createdAt),
       startedAt: isoDateOrNull(run.startedAt),
@@ -119,6 +123,7 @@ export async function listRuns(imageId: number): Promise<RunSummary[]> {
       'attempts',
       'cancelRequested',
       'sourceCount',
+      'kind',
       'phasesMs',
       'startedAt',
       'finishedAt',
@@ -148,6 +153,7 @@ export async function runDetail(knex: Knex, run: Run): Promise<RunDetail> {
     diagnostics: diagnostics?.diagnostics ?? null,
     components,
     resultBytes: run.resultBytes,
+    joint: run.kind === 'joint' ? await jointRunInfo(knex, run) : null,
   };
 }
 
@@ -317,30 +323,75 @@ export async function sourceDownload(
   };
 }
 
-/** A stored component plane of a succeeded run (409 before it has succeeded, 404 without that plane). */
-export async function loadPlane(knex: Knex, run: Run, name: ComponentName) {
+/**
+ * A stored component plane of a succeeded run (409 before it has succeeded, 404 without that plane). `position`
+ * names the input image of a joint run (1 = the reference, whose planes are the run's own components).
+ */
+export async function loadPlane(knex: Knex, run: Run, name: ComponentName, position = 1) {
   requireSucceeded(run);
-  const row = (await knex('run_components')
-    .where({ runId: run.id, name })
-    .first('width', 'height', 'data')) as { width: number; height: number; data: Buffer } | undefined;
-  if (!row) throw notFound(`Run ${run.id} has no ${name} component.`);
+  if (position > 1 && run.kind !== 'joint') throw notFound(`Run ${run.id} has only one image.`);
+  const row = (await (
+    position > 1
+      ? knex('run_image_components').where({ runId: run.id, position, name })
+      : knex('run_components').where({ runId: run.id, name })
+  ).first('width', 'height', 'data')) as { width: number; height: number; data: Buffer } | undefined;
+  if (!row) {
+    throw notFound(
+      position > 1
+        ? `Image ${position} of run ${run.id} has no ${name} component.`
+        : `Run ${run.id} has no ${name} component.`,
+    );
+  }
   return { width: row.width, height: row.height, data: bytesToFloat32(row.data) };
 }
 
+/** The header cards a component is written with: its image's, or the common grid's for a joint run's sky fields. */
+async function componentHeader(
+  knex: Knex,
+  run: Run,
+  name: ComponentName,
+  position: number,
+): Promise<{
+  image: ImageMeta | { name: string; header: HeaderCard[]; unit: string | null };
+  header: HeaderCard[];
+}> {
+  if (position > 1) {
+    const image = await jointImageHeader(knex, run.id, position);
+    if (!image) throw notFound(`Image ${position} of run ${run.id} no longer exists.`);
+    return { image, header: image.header };
+  }
+  const image = await imageMeta(knex, run.imageId);
+  const factor = run.jointResults?.grid.factor ?? 1;
+  if (run.kind === 'joint' && factor > 1 && (name === 'diffuseSky' || name === 'compactSky')) {
+    const wcs = parseWcs(image.header);
+    if (wcs) {
+      const grid = commonGrid(wcs, image.width, image.height, 1, factor);
+      return { image, header: commonGridHeader(grid, wcs, image.header) };
+    }
+  }
+  return { image, header: image.header };
+}
+
 /** A component as FITS, with the input's WCS, beam and provenance cards. */
-export async function componentFits(ctx: AppContext, run: Run, name: ComponentName): Promise<Download> {
-  const plane = await loadPlane(ctx.knex, run, name);
-  const image = await imageMeta(ctx.knex, run.imageId);
+export async function componentFits(
+  ctx: AppContext,
+  run: Run,
+  name: ComponentName,
+  position = 1,
+): Promise<Download> {
+  const plane = await loadPlane(ctx.knex, run, name, position);
+  const { image, header } = await componentHeader(ctx.knex, run, name, position);
   const bytes = writeFits(plane, {
-    header: image.header,
+    header,
     unit: name === 'residualNorm' ? '' : (image.unit ?? undefined),
     softwareVersion: run.provenance?.softwareVersion ?? ctx.version,
     settingsDigest: run.settingsDigest,
     cards: [{ keyword: 'HISTORY', comment: `Skysieve run ${run.id}: ${name} component of ${image.name}` }],
   });
+  const suffix = position > 1 ? `-image${position}` : '';
   return {
     contentType: 'application/fits',
-    fileName: `skysieve-run-${run.id}-${name}.fits`,
+    fileName: `skysieve-run-${run.id}${suffix}-${name}.fits`,
     body: Buffer.from(bytes),
   };
 }
@@ -361,8 +412,9 @@ export async function componentView(
   run: Run,
   name: ComponentName,
   maxSize?: number,
+  position = 1,
 ): Promise<PlaneView> {
-  return planeView(await loadPlane(knex, run, name), maxSize);
+  return planeView(await loadPlane(knex, run, name, position), maxSize);
 }
 
 /** Any full-size plane block-averaged so that its longer side is at most maxSize (full size without it). */

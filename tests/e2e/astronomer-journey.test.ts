@@ -6,8 +6,10 @@
  * components, select a catalogue row and find the viewer centred on its marker, download the CSV and read it back;
  * launch a second run with other settings on the same image; then, as the administrator, lower the astronomer's
  * quota below their usage, see the next upload refused with the server's words in the page, restore the quota and
- * upload again. Keyboard focus is checked on the upload control. No console errors. Screenshots at 1366 × 768 (one
- * at 1920 × 1080, one dark) go to test-artifacts/astronomer-journey/.
+ * upload again. Also: the upload control is reached by Tab and shows its focus ring; the finished run page's main
+ * text meets WCAG AA contrast in both themes; no page is wider than 1366 px; a new run's page never shows the
+ * previous run while it loads. No console errors (besides the announced 413). Screenshots at 1366 × 768 (one at
+ * 1920 × 1080, one dark) go to test-artifacts/astronomer-journey/.
  */
 import { readFileSync } from 'node:fs';
 

@@ -56,6 +56,12 @@ const routes: RouteRecordRaw[] = [
         meta: { title: 'Images' },
       },
       {
+        path: 'projects/:id(\\d+)/joint-runs/new',
+        name: 'joint-run-setup',
+        component: () => import('@/pages/JointRunSetupPage.vue'),
+        meta: { title: 'New joint run' },
+      },
+      {
         path: 'images/:id(\\d+)/runs/new',
         name: 'run-setup',
         component: () => import('@/pages/RunSetupPage.vue'),

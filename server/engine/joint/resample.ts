@@ -3,11 +3,10 @@
  * adjoint Rᵀ, built once from the two pixel ↔ world maps.
  *
  * Every common-grid pixel is carried to the image through world coordinates (common pixel → world → image
- * pixel) and spread over the image pixels it overlaps: its footprint on the target grid is the parallelogram
- * spanned by the columns of the local Jacobian J of the map (differences over ±½ pixel) about its mapped
- * centre, clipped against each target pixel (Sutherland–Hodgman polygon clipping, shoelace areas), and its value
- * is shared in proportion to the overlap areas. Neighbouring parallelograms meet edge to edge up to the map's
- * curvature, so rotated and offset grids are covered without gaps or double counting. The weights of one common pixel
+ * pixel) and spread over the image pixels it overlaps: its footprint on the target grid is the quadrilateral of
+ * its four mapped corners, clipped against each target pixel (Sutherland–Hodgman polygon clipping, shoelace
+ * areas), and its value is shared in proportion to the overlap areas. Neighbours share their mapped corners, so
+ * rotated and offset grids are covered without gaps or double counting (up to the straight edges between corners). The weights of one common pixel
  * sum to 1 over the image pixels it lands on, so R conserves flux: a point source keeps its summed flux in every
  * image (light that falls outside the image is lost there, as it would be on the sky).
  * When the grids are aligned and the image pixel is a whole number f of common pixels, every square falls
@@ -95,32 +94,37 @@ export function buildResampler(
   const coverage = new Float64Array(targetWidth * targetHeight);
   const cellIndex: number[] = [];
   const cellWeight: number[] = [];
+  // The mapped corners of every source pixel, shared between neighbours: the footprints tile the target exactly.
+  const cw = sourceWidth + 1;
+  const cornerX = new Float64Array(cw * (sourceHeight + 1));
+  const cornerY = new Float64Array(cw * (sourceHeight + 1));
+  for (let j = 0; j <= sourceHeight; j++) {
+    for (let i = 0; i <= sourceWidth; i++) {
+      const [px, py] = map(i - 0.5, j - 0.5);
+      cornerX[j * cw + i] = px;
+      cornerY[j * cw + i] = py;
+    }
+  }
+  const polygon = new Array<number>(8);
   for (let y = 0; y < sourceHeight; y++) {
     for (let x = 0; x < sourceWidth; x++) {
       const c = y * sourceWidth + x;
       start[c] = index.length;
-      const [cx, cy] = map(x, y);
-      if (!Number.isFinite(cx) || !Number.isFinite(cy)) continue;
-      const [xp0, yp0] = map(x + 0.5, y);
-      const [xm0, ym0] = map(x - 0.5, y);
-      const [xp1, yp1] = map(x, y + 0.5);
-      const [xm1, ym1] = map(x, y - 0.5);
-      const ax = 0.5 * (xp0 - xm0);
-      const ay = 0.5 * (yp0 - ym0);
-      const bx = 0.5 * (xp1 - xm1);
-      const by = 0.5 * (yp1 - ym1);
-      const area = 4 * Math.abs(ax * by - ay * bx);
-      if (!Number.isFinite(area) || area === 0) continue;
-      const polygon = [
-        cx - ax - bx,
-        cy - ay - by,
-        cx + ax - bx,
-        cy + ay - by,
-        cx + ax + bx,
-        cy + ay + by,
-        cx - ax + bx,
-        cy - ay + by,
-      ];
+      const corners = [y * cw + x, y * cw + x + 1, (y + 1) * cw + x + 1, (y + 1) * cw + x];
+      let finite = true;
+      for (let v = 0; v < 4; v++) {
+        polygon[2 * v] = cornerX[corners[v]!]!;
+        polygon[2 * v + 1] = cornerY[corners[v]!]!;
+        if (!Number.isFinite(polygon[2 * v]!) || !Number.isFinite(polygon[2 * v + 1]!)) finite = false;
+      }
+      if (!finite) continue;
+      let twice = 0;
+      for (let v = 0; v < 4; v++) {
+        const w = (v + 1) % 4;
+        twice += polygon[2 * v]! * polygon[2 * w + 1]! - polygon[2 * w]! * polygon[2 * v + 1]!;
+      }
+      const area = Math.abs(twice) / 2;
+      if (!(area > 0)) continue;
       let x0 = Infinity;
       let x1 = -Infinity;
       let y0 = Infinity;

@@ -203,6 +203,40 @@ describe('a joint run that succeeds', () => {
     expect(run!.resultBytes).toBeGreaterThan(7 * 64 * 64 * 4 + Number(bytes!.total) - 1);
   });
 
+  it('compares with a single-image run of its reference image (diffuse difference, cross-match)', async () => {
+    const single = await owner.post(`/api/images/${ids.sharp}/runs`, { settings: { maxIterations: 150 } });
+    expect(single.status, JSON.stringify(single.body)).toBe(202);
+    const done = await waitForRun((p) => owner.get(p), single.body.id, isDone, 60_000);
+    expect(done.status, String(done.errorMessage)).toBe('succeeded');
+    const created = await owner.post(`/api/projects/${f.project.id}/comparisons`, {
+      name: 'joint against sharp alone',
+      runIds: [runId, single.body.id],
+    });
+    expect(created.status, JSON.stringify(created.body)).toBe(201);
+    const comparisonId = created.body.id as number;
+    const difference = await owner.get(
+      `/api/comparisons/${comparisonId}/difference?a=${runId}&b=${single.body.id}&maxSize=64`,
+    );
+    expect(difference.status).toBe(200);
+    expect(difference.headers['x-plane-width']).toBe('64');
+    const match = await owner.get(
+      `/api/comparisons/${comparisonId}/cross-match?a=${runId}&b=${single.body.id}`,
+    );
+    expect(match.status, JSON.stringify(match.body)).toBe(200);
+    // The same sky measured twice: most bright sources of the joint catalogue are found alone too.
+    expect(match.body.pairs.length).toBeGreaterThanOrEqual(Math.min(3, detail.sourceCount ?? 0));
+    // A joint run is a run of its reference only: with a run of image 2 it is refused as for any two images.
+    const other = await owner.post(`/api/images/${ids.smooth}/runs`, { settings: { maxIterations: 20 } });
+    const otherDone = await waitForRun((p) => owner.get(p), other.body.id, isDone, 60_000);
+    expect(otherDone.status).toBe('succeeded');
+    const refused = await owner.post(`/api/projects/${f.project.id}/comparisons`, {
+      name: 'joint against smooth',
+      runIds: [runId, other.body.id],
+    });
+    expect(refused.status).toBe(422);
+    expect(refused.body.error.message).toMatch(/^Only runs of the same image can be compared/);
+  }, 130_000);
+
   it('lets the authorization rules decide who reads its images and components', async () => {
     for (const actor of actors) {
       const caller = callers.get(actor)!;

@@ -4,7 +4,7 @@
  * refusal shown as is), the view link between images on different grids, and the run page's joint panel (scale
  * factors with errors, a plane of every image fetched by its position).
  */
-import { afterEach, describe, expect, it } from 'vitest';
+import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
 
 import { createJointRunRequestSchema, type JointRunInfo } from '@shared/joint-runs';
 import type { HeaderCardDto } from '@shared/images';
@@ -13,11 +13,20 @@ import { emptyRow, jointRequest, moveRow, rowIssues } from '@/components/runs/jo
 import { gridLink } from '@/components/runs/joint-view-link';
 import ImageLibraryPage from '@/pages/ImageLibraryPage.vue';
 import JointRunSetupPage from '@/pages/JointRunSetupPage.vue';
+import RunPage from '@/pages/RunPage.vue';
 import { apiError } from '../support/api-mock';
 import { makeUser } from '../support/fixtures';
 import { mountPage, pageText, settle, unmountAll } from '../support/mount';
 import { makeImage, mockLibraryApi } from '../images/library-support';
-import { makeImageDetail, mockRunsApi } from './runs-support';
+import { FakeEventSource, makeFinishedRun, makeImageDetail, makeSource, mockRunsApi } from './runs-support';
+
+const plotly = vi.hoisted(() => ({ react: vi.fn(async () => undefined), purge: vi.fn() }));
+vi.mock('plotly.js-dist-min', () => ({ default: plotly }));
+
+beforeEach(() => {
+  FakeEventSource.instances = [];
+  vi.stubGlobal('EventSource', FakeEventSource);
+});
 
 afterEach(unmountAll);
 
@@ -144,39 +153,39 @@ describe('JointRunSetupPage', () => {
   });
 });
 
-describe('JointRunPanel', () => {
-  const joint: JointRunInfo = {
-    images: [1, 2].map((position) => ({
-      position,
-      imageId: 20 + position,
-      name: position === 1 ? 'LDF sharp' : 'LDF smooth',
-      width: position === 1 ? 64 : 32,
-      height: position === 1 ? 64 : 32,
-      options: {},
-      fit: {
-        scale:
-          position === 1
-            ? { value: 1, error: 0, fixed: true, mapValue: 1 }
-            : { value: 1.06505, error: 0.00208, fixed: false, mapValue: 1.0649 },
-        unit: 'Jy/beam',
-        unitGain: position === 1 ? 1 : 1.44,
-        likelihood: 'gaussian',
-        sigma: position === 1 ? 1 : 0.5,
-        sigmaSource: 'estimated',
-        psfFwhmPx: { major: position === 1 ? 3 : 4.5, minor: position === 1 ? 3 : 4.5 },
-        beamAreaPx: 10.2,
-        pixelsUsed: position === 1 ? 4096 : 1024,
-        pixelsOutside: 0,
-        inputName: position === 1 ? 'LDF sharp' : 'LDF smooth',
-        inputSha256: 'b'.repeat(64),
-      },
-    })),
-    grid: { width: 64, height: 64, factor: 1, scaleArcsec: 2 },
-    scalePriorWidth: 0.05,
-    refinement: 'reference-image',
-    warnings: [],
-  };
+const joint: JointRunInfo = {
+  images: [1, 2].map((position) => ({
+    position,
+    imageId: 20 + position,
+    name: position === 1 ? 'LDF sharp' : 'LDF smooth',
+    width: position === 1 ? 64 : 32,
+    height: position === 1 ? 64 : 32,
+    options: {},
+    fit: {
+      scale:
+        position === 1
+          ? { value: 1, error: 0, fixed: true, mapValue: 1 }
+          : { value: 1.06505, error: 0.00208, fixed: false, mapValue: 1.0649 },
+      unit: 'Jy/beam',
+      unitGain: position === 1 ? 1 : 1.44,
+      likelihood: 'gaussian',
+      sigma: position === 1 ? 1 : 0.5,
+      sigmaSource: 'estimated',
+      psfFwhmPx: { major: position === 1 ? 3 : 4.5, minor: position === 1 ? 3 : 4.5 },
+      beamAreaPx: 10.2,
+      pixelsUsed: position === 1 ? 4096 : 1024,
+      pixelsOutside: 0,
+      inputName: position === 1 ? 'LDF sharp' : 'LDF smooth',
+      inputSha256: 'b'.repeat(64),
+    },
+  })),
+  grid: { width: 64, height: 64, factor: 1, scaleArcsec: 2 },
+  scalePriorWidth: 0.05,
+  refinement: 'reference-image',
+  warnings: [],
+};
 
+describe('JointRunPanel', () => {
   it('shows the scale factors with their errors and a plane of every image, fetched by position', async () => {
     const api = mockRunsApi({
       'GET /api/images/:id': (request) => ({
@@ -218,5 +227,32 @@ describe('image library', () => {
     await settle();
     expect(button().text()).toContain('Joint run (2)');
     expect(button().attributes('href')).toBe('/projects/7/joint-runs/new?images=31,32');
+  });
+});
+
+describe('RunPage of a joint run', () => {
+  it('says it is joint, lists every input in the provenance and shows the joint panel with the catalogue markers', async () => {
+    const sources = [makeSource({ id: 1, x: 20.5, y: 30.25 })];
+    mockRunsApi({
+      'GET /api/runs/:id': { body: makeFinishedRun({ kind: 'joint', imageId: 21, joint }) },
+      'GET /api/images/:id': (request) => ({
+        body: makeImageDetail({
+          id: Number(request.params.id),
+          name: request.params.id === '21' ? 'LDF sharp' : 'LDF smooth',
+          header: request.params.id === '21' ? tanHeader(2, 32.5) : tanHeader(4, 16.5),
+        }),
+      }),
+      'GET /api/runs/:id/sources': {
+        body: { sources, page: 1, pageSize: 25, total: 1, caution: 'Model-dependent catalogue.' },
+      },
+    });
+    const { wrapper } = await mountPage(RunPage, { path: '/runs/42', user: makeUser({ id: 1 }) });
+    await settle();
+    await settle();
+    expect(wrapper.get('[data-test="joint-summary"]').text()).toContain('jointly with 1 more image');
+    expect(wrapper.get('[data-test="scale-row-2"]').text()).toContain('1.0651 ± 0.0021');
+    expect(wrapper.get('[data-test="provenance"]').text()).toContain('Input 2');
+    const panel = wrapper.getComponent(JointRunPanel);
+    expect((panel.props('sources') ?? []).map((s) => s.id)).toEqual([1]);
   });
 });

@@ -147,8 +147,8 @@ export interface FitResult {
   converged: boolean;
   trace: { stage: string; iteration: number; objective: number; gradNorm: number }[];
   seedsPerRound: number[];
-  /** φ = μ + H(A ⊙ ξ) on the padded grid at the end. */
-  logDiffusePadded: Float64Array;
+  /** φ = μ + H(A ⊙ ξ) on the padded grid at the end; only for a diffuseOnly fit (the coarse start). */
+  logDiffusePadded: Float64Array | null;
 }
 
 /** Padded grid side: room for the diffuse field beyond the edge (≥ 20% of the side, and ≥ 4 FWHM + 8 px). */
@@ -343,7 +343,7 @@ function upsampledStart(
   const { pw, ph } = grid;
   const cw = coarse.paddedWidth;
   const chh = coarse.paddedHeight;
-  const phiC = coarse.logDiffusePadded;
+  const phiC = coarse.logDiffusePadded!;
   const phi = new Float64Array(pw * ph);
   const ln4 = Math.log(4);
   let mean = 0;
@@ -836,7 +836,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       converged,
       trace,
       seedsPerRound,
-      logDiffusePadded: Float64Array.from(model.phi),
+      logDiffusePadded: options.diffuseOnly ? Float64Array.from(model.phi) : null,
     };
   } finally {
     model.dispose();

@@ -75,8 +75,14 @@ export function overlapFraction(
   return total > 0 ? inside / total : 0;
 }
 
-/** Throws a 422 AppError with the first problem found; returns nothing when the engine would start fitting. */
-export function checkJointInputs(images: JointCheckImage[], settings: ResolvedSeparationSettings): void {
+/**
+ * Throws a 422 AppError with the first problem found; when the engine would start fitting, returns the common
+ * grid's size (for the storage estimate).
+ */
+export function checkJointInputs(
+  images: JointCheckImage[],
+  settings: ResolvedSeparationSettings,
+): { gridWidth: number; gridHeight: number } {
   const labels = images.map((image, i) => jointImageLabel(i + 1, image.name));
   images.forEach((image, i) => {
     if (image.width < MIN_IMAGE_SIDE || image.height < MIN_IMAGE_SIDE) {
@@ -127,4 +133,5 @@ export function checkJointInputs(images: JointCheckImage[], settings: ResolvedSe
       );
     }
   }
+  return { gridWidth: grid!.width, gridHeight: grid!.height };
 }

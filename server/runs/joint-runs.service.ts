@@ -30,16 +30,17 @@ interface StoredImage {
 }
 
 /**
- * Bytes a finished joint run will store: five float32 planes per image plus the two common-grid sky fields
- * (at most the reference's size times the finest pixel ratio squared; taken at the reference's size times 4
- * when another image is finer, an upper bound for the usual 2× ratio).
+ * Bytes a finished joint run will store: five float32 planes per image plus the two sky fields on the common
+ * grid (sources come on top).
  */
-export function estimatedJointResultBytes(images: { width: number; height: number }[], gridFactor: number) {
+export function estimatedJointResultBytes(
+  images: { width: number; height: number }[],
+  grid: { gridWidth: number; gridHeight: number },
+) {
   const perImage = (COMPONENT_NAMES.length - 2) * 4;
-  const ref = images[0]!;
   return (
     images.reduce((sum, image) => sum + perImage * image.width * image.height, 0) +
-    2 * 4 * ref.width * ref.height * gridFactor * gridFactor
+    2 * 4 * grid.gridWidth * grid.gridHeight
   );
 }
 
@@ -64,7 +65,7 @@ export async function createJointRun(
   }
   const images = request.images.map((input) => ({ ...byId.get(input.imageId)!, options: input.options }));
   const settings = resolveSettings(request.settings);
-  checkJointInputs(images, settings);
+  const grid = checkJointInputs(images, settings);
 
   const reference = images[0]!;
   if (reference.uploadedById !== null) {
@@ -72,8 +73,7 @@ export async function createJointRun(
       .knex('users')
       .where('id', reference.uploadedById)
       .first('quotaBytes', 'bytesUsed')) as { quotaBytes: number; bytesUsed: number } | undefined;
-    const finer = images.some((image) => image.width > reference.width || image.height > reference.height);
-    const needed = estimatedJointResultBytes(images, finer ? 2 : 1);
+    const needed = estimatedJointResultBytes(images, grid);
     if (owner && owner.bytesUsed + needed > owner.quotaBytes) {
       const details = { usedBytes: owner.bytesUsed, quotaBytes: owner.quotaBytes, neededBytes: needed };
       throw new AppError(

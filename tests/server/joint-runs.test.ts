@@ -297,6 +297,28 @@ describe('checks before fitting', () => {
   });
 });
 
+describe('storage quota', () => {
+  it('refuses a joint run whose planes would not fit the reference uploader’s quota (413, nothing stored)', async () => {
+    const user = (await User.query().findById(f.owner.id))!;
+    // The planes alone: 5 × 64² + 5 × 32² float32 and two 64² sky fields = 122 880 bytes.
+    await User.query()
+      .patch({ quotaBytes: user.bytesUsed + 100_000 })
+      .where('id', user.id);
+    try {
+      const before = await t.ctx.knex('runs').count('* as n').first();
+      const response = await post(pairBody());
+      expect(response.status, JSON.stringify(response.body)).toBe(413);
+      expect(response.body.error.message).toContain("storage quota of the reference image's uploader");
+      expect(response.body.error.details.neededBytes).toBe(
+        5 * 64 * 64 * 4 + 5 * 32 * 32 * 4 + 2 * 64 * 64 * 4,
+      );
+      expect((await t.ctx.knex('runs').count('* as n').first())!.n).toBe(before!.n);
+    } finally {
+      await User.query().patch({ quotaBytes: user.quotaBytes }).where('id', user.id);
+    }
+  });
+});
+
 describe('failure leaves nothing half-written', () => {
   it('fails the run with the engine’s message when only the pixels show the problem, storing nothing', async () => {
     const bytesBefore = (await User.query().findById(f.owner.id))!.bytesUsed;

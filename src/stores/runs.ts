@@ -125,11 +125,20 @@ export async function fetchPlane(path: string, what: string): Promise<ComponentP
  * (../shared/STACK.md FFT table, pffft WASM, 2 threads: 52 ms). */
 const FFT_PAIR_SECONDS_2048 = 0.052;
 
+/** FFT pairs per objective evaluation, all costs included (npm run bench, 1024² and 2048², quiet machine). */
+const PAIRS_PER_EVALUATION = 4.2;
+
+/** Full-grid evaluations of a default fit on the bench skies (npm run bench: 91–171 from 256² to 2048², the
+ *  coarse start counted at a quarter). */
+const TYPICAL_EVALUATIONS = 180;
+
 /**
- * A rough run-time estimate in seconds, marked as such wherever it is shown. Rule (ours, not measured per
- * image): every objective evaluation costs three FFT pairs on a grid padded to twice each side (model.ts), a
- * pair scales as N log N from the 2048² time above, and a run makes about 1.5 evaluations per iteration over the
- * final budget plus a third of it for each earlier stage (diffuse stage and one per seeding round).
+ * A rough run-time estimate in seconds, marked as such wherever it is shown. Rule (ours, from the bench, not
+ * measured per image): the fit runs on a grid padded by about a quarter on each side, an FFT pair there scales
+ * as N log N from the 2048² time above, and an evaluation costs PAIRS_PER_EVALUATION pairs. A fit stops when
+ * its prediction settles, typically after TYPICAL_EVALUATIONS evaluations (more with more seeding rounds), or
+ * earlier when the iteration budget (a third of maxIterations per early stage plus maxIterations for the last,
+ * about 1.1 evaluations per iteration) runs out first.
  */
 export function estimateRunSeconds(
   width: number,
@@ -137,11 +146,12 @@ export function estimateRunSeconds(
   maxIterations: number,
   seedRounds: number,
 ): number {
-  const padded = 4 * width * height;
+  const padded = 1.5625 * width * height;
   const reference = 2048 * 2048;
   const pair = (FFT_PAIR_SECONDS_2048 * (padded * Math.log2(padded))) / (reference * Math.log2(reference));
-  const iterations = maxIterations * (1 + (seedRounds + 1) / 3);
-  return 1.5 * iterations * 3 * pair;
+  const settled = TYPICAL_EVALUATIONS * (1 + 0.3 * (seedRounds - 2));
+  const budget = 1.1 * maxIterations * (1 + (seedRounds + 1) / 3);
+  return Math.min(settled, budget) * PAIRS_PER_EVALUATION * pair;
 }
 
 export const useRunsStore = defineStore('runs', () => {

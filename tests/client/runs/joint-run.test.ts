@@ -14,6 +14,7 @@ import { gridLink } from '@/components/runs/joint-view-link';
 import ImageLibraryPage from '@/pages/ImageLibraryPage.vue';
 import JointRunSetupPage from '@/pages/JointRunSetupPage.vue';
 import RunPage from '@/pages/RunPage.vue';
+import RunSetupPage from '@/pages/RunSetupPage.vue';
 import { apiError } from '../support/api-mock';
 import { makeUser } from '../support/fixtures';
 import { mountPage, pageText, settle, unmountAll } from '../support/mount';
@@ -254,5 +255,22 @@ describe('RunPage of a joint run', () => {
     expect(wrapper.get('[data-test="provenance"]').text()).toContain('Input 2');
     const panel = wrapper.getComponent(JointRunPanel);
     expect((panel.props('sources') ?? []).map((s) => s.id)).toEqual([1]);
+  });
+});
+
+describe('RunSetupPage', () => {
+  it('leads from a single run setup to a joint run with this image as the reference', async () => {
+    mockRunsApi({
+      'GET /api/images/:id': { body: makeImageDetail({ id: 11, projectId: 7 }) },
+      'GET /api/images/:id/runs': { body: { runs: [] } },
+    });
+    const { wrapper } = await mountPage(RunSetupPage, {
+      path: '/images/11/runs/new',
+      user: makeUser({ id: 1 }),
+    });
+    await settle();
+    expect(wrapper.get('[data-test="joint-setup-link"]').attributes('href')).toBe(
+      '/projects/7/joint-runs/new?images=11',
+    );
   });
 });

@@ -8,8 +8,14 @@
  * without a celestial WCS, footprints that do not overlap, an unsupported frame pair and irreconcilable units;
  * a refusal the headers cannot show fails the run with the engine's message and stores nothing; the store
  * rolls back whole; the authorization matrix of the new route and of the per-image components.
- * Outside reference: the simulated truth (the scale error the pair was drawn with, source positions).
+ * Outside references: the simulated truth (the scale error the pair was drawn with, source positions); astropy
+ * (/usr/bin/python3) reading image 2's component FITS and its WCS.
  */
+import { execFileSync } from 'node:child_process';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
 import { simulateJointPair, type PairImage } from '../../samples/joint-pair';
@@ -236,6 +242,45 @@ describe('a joint run that succeeds', () => {
     expect(refused.status).toBe(422);
     expect(refused.body.error.message).toMatch(/^Only runs of the same image can be compared/);
   }, 130_000);
+
+  it('writes image 2’s planes as FITS with image 2’s own WCS (read back by astropy)', async () => {
+    const fits = await owner
+      .get(`/api/runs/${runId}/components/model?image=2&format=fits`)
+      .buffer(true)
+      .parse((res, done) => {
+        const chunks: Buffer[] = [];
+        res.on('data', (chunk: Buffer) => chunks.push(chunk));
+        res.on('end', () => done(null, Buffer.concat(chunks)));
+      });
+    const folder = mkdtempSync(join(tmpdir(), 'joint-fits-'));
+    try {
+      const path = join(folder, 'model2.fits');
+      writeFileSync(path, fits.body as Buffer);
+      const truth = pair.truth.sources[0]!;
+      // The coarse pixel of a fine (0-based) position: ((x + ½)/2 − ½), FITS 1-based + 1 (samples/joint-pair.ts).
+      const cx = (truth.x + 0.5) / 2 - 0.5 + 1;
+      const cy = (truth.y + 0.5) / 2 - 0.5 + 1;
+      const script = [
+        'import json, sys',
+        'from astropy.io import fits',
+        'from astropy.wcs import WCS',
+        'h = fits.open(sys.argv[1])[0]',
+        'w = WCS(h.header)',
+        'ra, dec = w.all_pix2world([[float(sys.argv[2]), float(sys.argv[3])]], 1)[0]',
+        'print(json.dumps({"shape": list(h.data.shape), "ra": float(ra), "dec": float(dec), "bunit": h.header.get("BUNIT")}))',
+      ].join('\n');
+      const out = JSON.parse(
+        execFileSync('/usr/bin/python3', ['-c', script, path, String(cx), String(cy)]).toString(),
+      ) as { shape: number[]; ra: number; dec: number; bunit: string };
+      expect(out.shape).toEqual([32, 32]);
+      expect(out.bunit).toBe('Jy/beam');
+      // The same sky position through image 2's header (astropy) as through the sharp image's (the simulator).
+      expect(Math.abs(out.ra - truth.ra) * 3600 * Math.cos((truth.dec * Math.PI) / 180)).toBeLessThan(0.01);
+      expect(Math.abs(out.dec - truth.dec) * 3600).toBeLessThan(0.01);
+    } finally {
+      rmSync(folder, { recursive: true, force: true });
+    }
+  });
 
   it('lets the authorization rules decide who reads its images and components', async () => {
     for (const actor of actors) {

@@ -293,6 +293,75 @@ describe('a joint run that succeeds', () => {
   });
 });
 
+describe('a joint run with the coarse image as the reference', () => {
+  it('keeps the catalogue in the reference’s pixels and the sky fields on the 2× finer common grid, FITS included', async () => {
+    const response = await post({
+      images: [{ imageId: ids.smooth }, { imageId: ids.sharp }],
+      settings: { maxIterations: 150 },
+    });
+    expect(response.status, JSON.stringify(response.body)).toBe(202);
+    const runId = response.body.id as number;
+    const detail = (await waitForRun((p) => owner.get(p), runId, isDone, 120_000)) as unknown as RunDetail;
+    expect(detail.status, detail.errorMessage ?? '').toBe('succeeded');
+    expect(detail.imageId).toBe(ids.smooth);
+    expect(detail.joint!.grid).toMatchObject({ width: 64, height: 64, factor: 2 });
+    expect(detail.joint!.refinement).toBe('sharpest-image');
+    // Relative to the coarse reference the sharp image's scale is 1/1.07.
+    const sharpScale = detail.joint!.images[1]!.fit!.scale;
+    expect(Math.abs(sharpScale.value - 1 / SCALE_ERROR)).toBeLessThan(4 * sharpScale.error + 0.005);
+    const sizes = Object.fromEntries(detail.components.map((c) => [c.name, [c.width, c.height]]));
+    expect(sizes).toMatchObject({
+      residual: [32, 32],
+      diffuse: [32, 32],
+      diffuseSky: [64, 64],
+      compactSky: [64, 64],
+    });
+    const page = (await owner.get(`/api/runs/${runId}/sources?pageSize=1000`)).body as SourcePage;
+    expect(page.total).toBeGreaterThan(0);
+    for (const source of page.sources) {
+      expect(source.x).toBeGreaterThan(0);
+      expect(source.x).toBeLessThan(33);
+    }
+    const fits = await owner
+      .get(`/api/runs/${runId}/components/diffuseSky?format=fits`)
+      .buffer(true)
+      .parse((res, done) => {
+        const chunks: Buffer[] = [];
+        res.on('data', (chunk: Buffer) => chunks.push(chunk));
+        res.on('end', () => done(null, Buffer.concat(chunks)));
+      });
+    const folder = mkdtempSync(join(tmpdir(), 'joint-grid-'));
+    try {
+      const path = join(folder, 'sky.fits');
+      writeFileSync(path, fits.body as Buffer);
+      const truth = pair.truth.sources[0]!;
+      const script = [
+        'import json, sys',
+        'from astropy.io import fits',
+        'from astropy.wcs import WCS',
+        'h = fits.open(sys.argv[1])[0]',
+        'ra, dec = WCS(h.header).all_pix2world([[float(sys.argv[2]), float(sys.argv[3])]], 1)[0]',
+        'print(json.dumps({"shape": list(h.data.shape), "ra": float(ra), "dec": float(dec)}))',
+      ].join('\n');
+      // The common grid is the sharp image's grid here: a fine pixel is where the simulator put the source.
+      const out = JSON.parse(
+        execFileSync('/usr/bin/python3', [
+          '-c',
+          script,
+          path,
+          String(truth.x + 1),
+          String(truth.y + 1),
+        ]).toString(),
+      ) as { shape: number[]; ra: number; dec: number };
+      expect(out.shape).toEqual([64, 64]);
+      expect(Math.abs(out.ra - truth.ra) * 3600 * Math.cos((truth.dec * Math.PI) / 180)).toBeLessThan(0.01);
+      expect(Math.abs(out.dec - truth.dec) * 3600).toBeLessThan(0.01);
+    } finally {
+      rmSync(folder, { recursive: true, force: true });
+    }
+  }, 130_000);
+});
+
 describe('checks before fitting', () => {
   const refused = async (otherId: number, message: RegExp) => {
     const before = await t.ctx.knex('runs').count('* as n').first();

@@ -11,6 +11,7 @@ import type { ApiRequest } from '../http/api-route';
 import { AppError } from '../http/app-error';
 import { toFieldIssues } from '../http/validate';
 import { currentUser } from '../http/guards';
+import { sendDownload } from '../http/send-download';
 import { projectAccessOf } from '../projects/project-access';
 import { runOf } from '../runs/run-access';
 import * as matching from './cross-match.service';
@@ -34,12 +35,6 @@ function readOptions(query: ReferenceReadOptions, fields: Record<string, string>
     );
   }
   return { ...query, ...Object.fromEntries(Object.entries(parsed.data).filter(([, v]) => v !== undefined)) };
-}
-
-function sendDownload(res: Response, download: matching.Download): void {
-  res.setHeader('Content-Type', download.contentType);
-  res.setHeader('Content-Disposition', `attachment; filename="${download.fileName}"`);
-  res.send(download.body);
 }
 
 export function crossMatchController(ctx: AppContext) {

@@ -20,11 +20,9 @@ import type {
   UnmatchedEntry,
 } from '../../shared/cross-match';
 import type { BeamSummary, HeaderCardDto, WcsSummary } from '../../shared/images';
-import { CATALOGUE_CAUTION, type CatalogueProvenance, fluxUnits } from '../catalogue/catalogue-table';
+import { CATALOGUE_CAUTION, fluxUnits } from '../catalogue/catalogue-table';
 import { type CrossMatchResult, defaultMatchRadiusArcsec } from '../catalogue/cross-match';
-import { tableToCsv } from '../catalogue/export-csv';
-import { tableToFitsBintable } from '../catalogue/export-fits-table';
-import { tableToVotable } from '../catalogue/export-votable';
+import { catalogueProvenance, type Download, tableDownload, type TableFormat } from '../catalogue/downloads';
 import { matchRuns, matchToReference, referenceTableEntries } from '../catalogue/match-reference';
 import { crossMatchToTable, type MatchTableEntry } from '../catalogue/match-table';
 import {
@@ -423,36 +421,16 @@ export async function crossMatch(
   };
 }
 
-export interface Download {
-  contentType: string;
-  fileName: string;
-  body: Buffer | string;
-}
-
 /** The matched table (pairs, then ours-only, then theirs-only) in a standard format. */
 export async function crossMatchDownload(
   ctx: AppContext,
   run: Run,
   request: CrossMatchRequest,
-  format: 'csv' | 'votable' | 'fits',
+  format: TableFormat,
 ): Promise<Download> {
   const prepared = await prepare(ctx, run, request);
   const { image, result } = prepared;
-  const provenance: CatalogueProvenance = {
-    imageName: image.name,
-    imageSha256: image.contentSha256,
-    imageUnit: image.unit ?? '',
-    beam: image.beam
-      ? {
-          majorArcsec: image.beam.majorArcsec,
-          minorArcsec: image.beam.minorArcsec,
-          positionAngleDeg: image.beam.paDeg,
-        }
-      : null,
-    settingsDigest: run.settingsDigest,
-    softwareVersion: run.provenance?.softwareVersion ?? ctx.version,
-    createdAt: isoDate(new Date()),
-  };
+  const provenance = catalogueProvenance(image, run, ctx.version, isoDate(new Date()));
   const units = fluxUnits(image.unit ?? '');
   const ourTableEntries: MatchTableEntry[] = prepared.ourSides.map((s) => ({ ...s, id: Number(s.id) }));
   const table = crossMatchToTable(result, ourTableEntries, prepared.theirTableEntries, provenance, {
@@ -461,18 +439,5 @@ export async function crossMatchDownload(
   });
   table.title = `Skysieve cross-match of run ${run.id} against ${prepared.against.name}`;
   const base = `skysieve-run-${run.id}-cross-match-${prepared.against.kind}-${prepared.against.id}`;
-  if (format === 'csv')
-    return { contentType: 'text/csv; charset=utf-8', fileName: `${base}.csv`, body: tableToCsv(table) };
-  if (format === 'votable') {
-    return {
-      contentType: 'application/x-votable+xml; charset=utf-8',
-      fileName: `${base}.xml`,
-      body: tableToVotable(table),
-    };
-  }
-  return {
-    contentType: 'application/fits',
-    fileName: `${base}.fits`,
-    body: Buffer.from(tableToFitsBintable(table)),
-  };
+  return tableDownload(table, base, format);
 }

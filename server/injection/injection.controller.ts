@@ -1,21 +1,16 @@
 import type { Response } from 'express';
 
 import type { CreateInjectionStudyOutput, NumberCountsQuery } from '../../shared/injection';
+import { tableDownload } from '../catalogue/downloads';
 import type { AppContext } from '../context';
 import type { ApiRequest } from '../http/api-route';
 import { currentUser } from '../http/guards';
+import { sendDownload } from '../http/send-download';
 import { runOf } from '../runs/run-access';
-import type { Download } from '../runs/runs.service';
 import * as studies from './injection.service';
 
 type StudyParams = { id: number; studyId: number };
 type ExportQuery = { table: 'completeness' | 'false-sources'; format: 'csv' | 'votable' | 'fits' };
-
-function sendDownload(res: Response, download: Download): void {
-  res.setHeader('Content-Type', download.contentType);
-  res.setHeader('Content-Disposition', `attachment; filename="${download.fileName}"`);
-  res.send(download.body);
-}
 
 export function injectionController(ctx: AppContext) {
   return {
@@ -49,7 +44,7 @@ export function injectionController(ctx: AppContext) {
       const answer = await studies.runNumberCounts(ctx, run, req.query);
       const { format } = req.query;
       if (format === 'json') return void res.json(answer.counts);
-      sendDownload(res, studies.download(answer.table(), `skysieve-run-${run.id}-number-counts`, format));
+      sendDownload(res, tableDownload(answer.table(), `skysieve-run-${run.id}-number-counts`, format));
     },
   };
 }

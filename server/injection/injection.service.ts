@@ -17,9 +17,7 @@ import {
 import { type CatalogueProvenance, type CatalogueTable } from '../catalogue/catalogue-table';
 import { fluxUnits } from '../catalogue/catalogue-table';
 import { type LevelResult } from '../catalogue/completeness';
-import { tableToCsv } from '../catalogue/export-csv';
-import { tableToFitsBintable } from '../catalogue/export-fits-table';
-import { tableToVotable } from '../catalogue/export-votable';
+import { catalogueProvenance, type Download, tableDownload } from '../catalogue/downloads';
 import { DEG2_PER_SR, numberCounts } from '../catalogue/number-counts';
 import { completenessToTable, falseSourcesToTable, numberCountsToTable } from '../catalogue/result-tables';
 import type { AppContext } from '../context';
@@ -30,7 +28,6 @@ import { InjectionStudy } from '../models/injection-study';
 import { InjectionTrial } from '../models/injection-trial';
 import type { Run } from '../models/run';
 import { injectionQueueOf } from '../queue/injection-queue';
-import type { Download } from '../runs/runs.service';
 import { planStudy } from './injection-plan';
 import { surveyArea } from './survey-area';
 
@@ -256,40 +253,9 @@ export async function deleteStudy(runId: number, studyId: number): Promise<void>
   });
 }
 
+/** The provenance of the study's tables: the run's image, settings and finish time. */
 function provenanceOf(ctx: AppContext, run: Run, image: StudyImageRow): CatalogueProvenance {
-  return {
-    imageName: image.name,
-    imageSha256: image.contentSha256,
-    imageUnit: image.unit ?? '',
-    beam: image.beam
-      ? {
-          majorArcsec: image.beam.majorArcsec,
-          minorArcsec: image.beam.minorArcsec,
-          positionAngleDeg: image.beam.paDeg,
-        }
-      : null,
-    settingsDigest: run.settingsDigest,
-    softwareVersion: run.provenance?.softwareVersion ?? ctx.version,
-    createdAt: isoDate(run.finishedAt ?? run.updatedAt),
-  };
-}
-
-/** A result table in one of the catalogue formats, as a download. */
-export function download(table: CatalogueTable, base: string, format: 'csv' | 'votable' | 'fits'): Download {
-  if (format === 'csv')
-    return { contentType: 'text/csv; charset=utf-8', fileName: `${base}.csv`, body: tableToCsv(table) };
-  if (format === 'votable') {
-    return {
-      contentType: 'application/x-votable+xml; charset=utf-8',
-      fileName: `${base}.xml`,
-      body: tableToVotable(table),
-    };
-  }
-  return {
-    contentType: 'application/fits',
-    fileName: `${base}.fits`,
-    body: Buffer.from(tableToFitsBintable(table)),
-  };
+  return catalogueProvenance(image, run, ctx.version, isoDate(run.finishedAt ?? run.updatedAt));
 }
 
 /** The completeness table with the SNR of each level after the flux (null for Poisson images). */
@@ -334,7 +300,7 @@ export async function studyExport(
           provenance,
           results.falseSources.areaUnit === 'deg2' ? 'deg-2' : 'pix-2',
         );
-  return download(table, `skysieve-run-${run.id}-injection-${study.id}-${query.table}`, query.format);
+  return tableDownload(table, `skysieve-run-${run.id}-injection-${study.id}-${query.table}`, query.format);
 }
 
 /** Log-spaced edges over the flux range (positive fluxes), widened by a hair so the brightest falls inside. */

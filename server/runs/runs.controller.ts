@@ -4,6 +4,7 @@ import type { ComponentName, CreateRunOutput, SourcesQuery } from '../../shared/
 import type { AppContext } from '../context';
 import type { ApiRequest } from '../http/api-route';
 import { currentUser } from '../http/guards';
+import { sendDownload } from '../http/send-download';
 import { imageOf, runOf } from './run-access';
 import { streamRunEvents, type RunEventOptions } from './run-events';
 import * as runs from './runs.service';
@@ -11,12 +12,6 @@ import * as runs from './runs.service';
 type IdParams = { id: number };
 type ComponentQuery = { format: 'float32' | 'fits'; maxSize?: number; image?: number };
 type CutoutQuery = { x: number; y: number; size: number; plane: 'image' | ComponentName };
-
-function sendDownload(res: Response, download: runs.Download): void {
-  res.setHeader('Content-Type', download.contentType);
-  res.setHeader('Content-Disposition', `attachment; filename="${download.fileName}"`);
-  res.send(download.body);
-}
 
 /** A float32 plane view: the bytes, with its size and block factor in the X-Plane-* / X-Source-* headers. */
 export function sendPlaneView(res: Response, view: runs.PlaneView): void {

@@ -16,10 +16,8 @@ import {
   isTerminalRunStatus,
 } from '../../shared/runs';
 import { resolveSettings, type SeparationSettingsInput } from '../../shared/separation-settings';
-import { CATALOGUE_CAUTION, type CatalogueProvenance, sourcesToTable } from '../catalogue/catalogue-table';
-import { tableToCsv } from '../catalogue/export-csv';
-import { tableToFitsBintable } from '../catalogue/export-fits-table';
-import { tableToVotable } from '../catalogue/export-votable';
+import { CATALOGUE_CAUTION, sourcesToTable } from '../catalogue/catalogue-table';
+import { catalogueProvenance, type Download, tableDownload, type TableFormat } from '../catalogue/downloads';
 import type { AppContext } from '../context';
 import { settingsDigest } from '../engine/separate';
 import { writeFits } from '../engine/io/write-fits';
@@ -269,18 +267,12 @@ async function imageMeta(knex: Knex, imageId: number): Promise<ImageMeta> {
   return image;
 }
 
-export interface Download {
-  contentType: string;
-  fileName: string;
-  body: Buffer | string;
-}
-
 /** The filtered catalogue (every page) in a standard format, written by the catalogue exporters. */
 export async function sourceDownload(
   ctx: AppContext,
   run: Run,
   query: SourcesQuery,
-  format: 'csv' | 'votable' | 'fits',
+  format: TableFormat,
 ): Promise<Download> {
   requireSucceeded(run);
   const descending = query.sort.startsWith('-');
@@ -290,37 +282,10 @@ export async function sourceDownload(
     .orderBy('sourceId');
   const sources: CatalogueSource[] = rows.map((row) => row.toCatalogueSource());
   const image = await imageMeta(ctx.knex, run.imageId);
-  const provenance: CatalogueProvenance = {
-    imageName: image.name,
-    imageSha256: image.contentSha256,
-    imageUnit: image.unit ?? '',
-    beam: image.beam
-      ? {
-          majorArcsec: image.beam.majorArcsec,
-          minorArcsec: image.beam.minorArcsec,
-          positionAngleDeg: image.beam.paDeg,
-        }
-      : null,
-    settingsDigest: run.settingsDigest,
-    softwareVersion: run.provenance?.softwareVersion ?? ctx.version,
-    createdAt: isoDate(run.finishedAt ?? run.updatedAt),
-  };
+  const provenance = catalogueProvenance(image, run, ctx.version, isoDate(run.finishedAt ?? run.updatedAt));
   const table = sourcesToTable(sources, provenance);
   const base = `skysieve-run-${run.id}-sources`;
-  if (format === 'csv')
-    return { contentType: 'text/csv; charset=utf-8', fileName: `${base}.csv`, body: tableToCsv(table) };
-  if (format === 'votable') {
-    return {
-      contentType: 'application/x-votable+xml; charset=utf-8',
-      fileName: `${base}.xml`,
-      body: tableToVotable(table),
-    };
-  }
-  return {
-    contentType: 'application/fits',
-    fileName: `${base}.fits`,
-    body: Buffer.from(tableToFitsBintable(table)),
-  };
+  return tableDownload(table, base, format);
 }
 
 /**

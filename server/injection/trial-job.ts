@@ -30,6 +30,7 @@ import type { InjectedSource } from '../catalogue/completeness';
 import type { TrialRecovered } from '../models/injection-trial';
 import type { WorkerContext } from '../queue/run-job';
 import { WorkerShutdownError } from '../queue/run-job';
+import { isRetryableFitError, timeLimitMinutes, watchFit } from '../queue/fit-watch';
 import { FitCancelledError, runFitInThread } from '../runs/fit-thread';
 import { runPsf } from './injection-plan';
 import { settleStudy } from './settle-study';
@@ -188,33 +189,20 @@ export async function processTrialJob(
   const inputs = await loadInputs(knex, claimed.runId, claimed.kind === 'false-source');
   if (!inputs) return failTrial('The run, its image or its compact component no longer exists.');
 
-  const controller = new AbortController();
-  let reason: 'cancel' | 'timeout' | 'shutdown' | null = null;
-  const abort = (why: typeof reason) => {
-    if (controller.signal.aborted) return;
-    reason = why;
-    controller.abort();
-  };
-  const onShutdown = () => abort('shutdown');
-  if (options.shutdown?.aborted) abort('shutdown');
-  options.shutdown?.addEventListener('abort', onShutdown, { once: true });
-  const timeout = setTimeout(() => abort('timeout'), options.runTimeoutMs);
-  let polling = false;
-  const poll = setInterval(() => {
-    if (polling) return;
-    polling = true;
-    void knex('injection_studies')
-      .join('injection_trials', 'injection_trials.study_id', 'injection_studies.id')
-      .where('injection_trials.id', trialId)
-      .first('injection_studies.cancelRequested', 'injection_trials.status')
-      .then((row: { cancelRequested: boolean; status: string } | undefined) => {
-        if (!row || row.cancelRequested || row.status !== 'running') abort('cancel');
-      })
-      .catch((error: unknown) => ctx.logger.error(error))
-      .finally(() => {
-        polling = false;
-      });
-  }, options.pollMs ?? 500);
+  const watch = watchFit({
+    timeoutMs: options.runTimeoutMs,
+    shutdown: options.shutdown,
+    pollMs: options.pollMs,
+    async cancelled() {
+      const row = (await knex('injection_studies')
+        .join('injection_trials', 'injection_trials.study_id', 'injection_studies.id')
+        .where('injection_trials.id', trialId)
+        .first('injection_studies.cancelRequested', 'injection_trials.status')) as
+        { cancelRequested: boolean; status: string } | undefined;
+      return !row || row.cancelRequested || row.status !== 'running';
+    },
+    logError: (error) => ctx.logger.error(error),
+  });
 
   try {
     const count = inputs.width * inputs.height;
@@ -232,9 +220,9 @@ export async function processTrialJob(
         unit: inputs.unit,
         settings: inputs.settings,
       },
-      { signal: controller.signal },
+      { signal: watch.signal },
     );
-    clearInterval(poll);
+    watch.stopPolling();
     const fwhm = result.diagnostics.psfFwhmPx.major;
     let recovered: TrialRecovered;
     if (claimed.kind === 'injection') {
@@ -264,14 +252,15 @@ export async function processTrialJob(
       await settleStudy(trx, claimed.studyId);
     });
   } catch (error) {
-    clearInterval(poll);
-    if (error instanceof FitCancelledError || controller.signal.aborted) {
+    watch.stopPolling();
+    if (error instanceof FitCancelledError || watch.signal.aborted) {
+      const reason = watch.reason();
       if (reason === 'shutdown') {
         await endTrial(knex, trialId, 'queued', null);
         throw new WorkerShutdownError();
       }
       if (reason === 'timeout') {
-        const minutes = Math.round((options.runTimeoutMs / 60_000) * 100) / 100;
+        const minutes = timeLimitMinutes(options.runTimeoutMs);
         return failTrial(
           `The trial separation took longer than the time limit of ${minutes} minutes and was stopped.`,
         );
@@ -282,13 +271,10 @@ export async function processTrialJob(
       });
       return;
     }
-    if (error instanceof Error && /stopped unexpectedly|database|ECONN|terminat/i.test(error.message))
-      throw error;
+    if (isRetryableFitError(error)) throw error;
     await failTrial(error instanceof Error ? error.message : String(error));
   } finally {
-    clearTimeout(timeout);
-    clearInterval(poll);
-    options.shutdown?.removeEventListener('abort', onShutdown);
+    watch.dispose();
   }
 }
 

@@ -21,6 +21,7 @@ import { notifyRunFinished } from '../runs/run-mail';
 import { storeRunResults } from '../runs/run-results';
 import { AppError } from '../http/app-error';
 import { bytesToFloat32 } from '../models/run-component';
+import { isRetryableFitError, timeLimitMinutes, watchFit } from './fit-watch';
 
 export type WorkerContext = Pick<AppContext, 'config' | 'knex' | 'mailer' | 'logger' | 'version'>;
 
@@ -181,44 +182,27 @@ export async function processRunJob(
     return;
   }
 
-  const controller = new AbortController();
-  let reason: 'cancel' | 'timeout' | 'shutdown' | null = null;
-  const abort = (why: typeof reason) => {
-    if (controller.signal.aborted) return;
-    reason = why;
-    controller.abort();
-  };
-  const onShutdown = () => abort('shutdown');
-  if (options.shutdown?.aborted) abort('shutdown');
-  options.shutdown?.addEventListener('abort', onShutdown, { once: true });
-  const timeout = setTimeout(() => abort('timeout'), options.runTimeoutMs);
-
   let latest: RunProgress | null = null;
   let written: RunProgress | null = null;
-  let polling = false;
-  const poll = setInterval(() => {
-    if (polling) return;
-    polling = true;
-    const progress = latest;
-    const write =
-      progress && progress !== written
-        ? knex('runs')
-            .where({ id: runId, status: 'running' })
-            .update({ progress: JSON.stringify(progress), updatedAt: knex.fn.now() })
-        : Promise.resolve(0);
-    void write
-      .then(() => {
-        written = progress;
-        return knex('runs').where('id', runId).first('status', 'cancelRequested');
-      })
-      .then((row: { status: string; cancelRequested: boolean } | undefined) => {
-        if (!row || row.cancelRequested || row.status !== 'running') abort('cancel');
-      })
-      .catch((error: unknown) => ctx.logger.error(error))
-      .finally(() => {
-        polling = false;
-      });
-  }, options.pollMs ?? 500);
+  const watch = watchFit({
+    timeoutMs: options.runTimeoutMs,
+    shutdown: options.shutdown,
+    pollMs: options.pollMs,
+    // Writes the latest progress (when it changed), then reads the cancel flag.
+    async cancelled() {
+      const progress = latest;
+      if (progress && progress !== written) {
+        await knex('runs')
+          .where({ id: runId, status: 'running' })
+          .update({ progress: JSON.stringify(progress), updatedAt: knex.fn.now() });
+      }
+      written = progress;
+      const row = (await knex('runs').where('id', runId).first('status', 'cancelRequested')) as
+        { status: string; cancelRequested: boolean } | undefined;
+      return !row || row.cancelRequested || row.status !== 'running';
+    },
+    logError: (error) => ctx.logger.error(error),
+  });
 
   const count = image.width * image.height;
   try {
@@ -253,9 +237,9 @@ export async function processRunJob(
             }
           : {}),
       },
-      { signal: controller.signal, onProgress: (p) => (latest = p) },
+      { signal: watch.signal, onProgress: (p) => (latest = p) },
     );
-    clearInterval(poll);
+    watch.stopPolling();
     const provenance: RunProvenance = {
       softwareName: 'Skysieve',
       softwareVersion: ctx.version,
@@ -276,14 +260,15 @@ export async function processRunJob(
       }
     }
   } catch (error) {
-    clearInterval(poll);
-    if (error instanceof FitCancelledError || controller.signal.aborted) {
+    watch.stopPolling();
+    if (error instanceof FitCancelledError || watch.signal.aborted) {
+      const reason = watch.reason();
       if (reason === 'shutdown') {
         await finish(knex, runId, 'queued', null);
         throw new WorkerShutdownError();
       }
       if (reason === 'timeout') {
-        const minutes = Math.round((options.runTimeoutMs / 60_000) * 100) / 100;
+        const minutes = timeLimitMinutes(options.runTimeoutMs);
         const message = `The run took longer than the time limit of ${minutes} minutes (RUN_TIMEOUT_MINUTES) and was stopped.`;
         if (await finish(knex, runId, 'failed', message)) await notifyRunFinished(ctx, knex, runId);
         return;
@@ -291,14 +276,11 @@ export async function processRunJob(
       await finish(knex, runId, 'cancelled', null);
       return;
     }
-    if (error instanceof Error && /stopped unexpectedly|database|ECONN|terminat/i.test(error.message))
-      throw error;
+    if (isRetryableFitError(error)) throw error;
     const message = error instanceof Error ? error.message : String(error);
     if (await finish(knex, runId, 'failed', message)) await notifyRunFinished(ctx, knex, runId);
   } finally {
-    clearTimeout(timeout);
-    clearInterval(poll);
-    options.shutdown?.removeEventListener('abort', onShutdown);
+    watch.dispose();
   }
 }
 

@@ -359,6 +359,14 @@ describe('a joint run with the coarse image as the reference', () => {
     } finally {
       rmSync(folder, { recursive: true, force: true });
     }
+    // Deleting it removes every image's planes and gives all their bytes back.
+    const run = (await Run.query().findById(runId))!;
+    const used = (await User.query().findById(f.owner.id))!.bytesUsed;
+    expect((await owner.delete(`/api/runs/${runId}`)).status).toBe(204);
+    expect((await User.query().findById(f.owner.id))!.bytesUsed).toBe(used - run.resultBytes);
+    for (const table of ['run_images', 'run_image_components', 'run_components', 'run_sources']) {
+      expect((await t.ctx.knex(table).where('runId', runId).count('* as n').first())!.n, table).toBe(0);
+    }
   }, 130_000);
 });
 

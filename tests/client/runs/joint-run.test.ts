@@ -206,6 +206,9 @@ describe('JointRunPanel', () => {
     const planes = api.planeCalls.filter((call) => call.path === '/api/runs/42/components/residualNorm');
     expect(planes.map((call) => call.query.get('image')).sort()).toEqual(['1', '2']);
     expect(wrapper.find('[data-test="joint-viewer-2"]').text()).toContain('LDF smooth');
+    expect(wrapper.get('[data-test="joint-fits-2"]').attributes('href')).toBe(
+      '/api/runs/42/components/residualNorm?format=fits&image=2',
+    );
   });
 });
 

@@ -18,19 +18,16 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
 import { resolveSettings } from '../../shared/separation-settings';
 import { Run } from '../../server/models/run';
-import type { User } from '../../server/models/user';
 import { stopRunQueue } from '../../server/queue/run-queue';
-import { createToken } from '../../server/tokens/tokens.service';
-import { type Actor, actors, editorsStatuses, readStatuses } from '../support/authorization-actors';
 import {
-  BrowserClient,
-  createUser,
-  signIn,
-  startTestApp,
-  type TestApp,
-  TokenClient,
-} from '../support/test-app';
-import { fastSettings, type RunFixture, runFixture, smallSky } from './runs/run-support';
+  type Actor,
+  actors,
+  editorsStatuses,
+  readStatuses,
+  signInActors,
+} from '../support/authorization-actors';
+import { BrowserClient, startTestApp, type TestApp } from '../support/test-app';
+import { fastSettings, insertRunRow, type RunFixture, runFixture, smallSky } from './runs/run-support';
 
 type Caller = Pick<BrowserClient, 'get' | 'post' | 'delete'>;
 
@@ -38,25 +35,13 @@ let t: TestApp;
 let f: RunFixture;
 let runId = 0;
 let finishedStudyId = 0;
-const callers = new Map<Actor, Caller>();
+let callers: Map<Actor, Caller>;
 const fluxes = [1.0, 1.5, 1.9, 2, 3, 4, 0.5];
 
 beforeAll(async () => {
   t = await startTestApp();
   f = await runFixture(t.ctx, smallSky(11, 96));
-  const admin = await createUser(t.ctx, { role: 'admin' });
-  const outsider = await createUser(t.ctx);
-  const signedIn = async (user: User) => signIn(t.app, user.email);
-  callers.set('admin', await signedIn(admin));
-  callers.set('owner', await signedIn(f.owner));
-  callers.set('editor', await signedIn(f.editor));
-  callers.set('viewer', await signedIn(f.viewer));
-  callers.set('non-member', await signedIn(outsider));
-  callers.set('signed-out', new BrowserClient(t.app));
-  callers.set(
-    'owner token',
-    new TokenClient(t.app, (await createToken(f.owner, 'injection matrix', null)).token),
-  );
+  ({ callers } = await signInActors(t, f, 'injection matrix'));
   runId = await insertFinishedRun();
   finishedStudyId = await insertStudy('succeeded');
 }, 60_000);
@@ -67,19 +52,11 @@ afterAll(async () => {
 });
 
 async function insertFinishedRun(): Promise<number> {
-  const run = await Run.query().insertAndFetch({
-    imageId: f.imageId,
-    projectId: f.project.id,
-    createdBy: f.owner.id,
-    status: 'succeeded',
+  const run = await insertRunRow(f, {
     requestedSettings: fastSettings,
     settings: resolveSettings(fastSettings) as unknown as Record<string, unknown>,
     settingsDigest: 'e'.repeat(64),
-    attempts: 1,
-    cancelRequested: false,
-    resultBytes: 0,
     sourceCount: fluxes.length,
-    finishedAt: new Date(),
   });
   await t.ctx
     .knex('runs')

@@ -16,24 +16,15 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
 import { QUICKLOOK_COLOUR_MAPS } from '../../../shared/quicklook';
 import { float32ToBytes } from '../../../server/models/run-component';
-import { Run } from '../../../server/models/run';
 import { MARKER_RGB } from '../../../server/runs/quicklook-image';
-import { createToken } from '../../../server/tokens/tokens.service';
 import {
   COLOUR_MAP_NAMES,
   colourMapTable,
   DIVERGING_COLOUR_MAP_NAMES,
 } from '../../../src/viewer/colour-maps';
-import { type Actor, actors, readStatuses } from '../../support/authorization-actors';
-import {
-  BrowserClient,
-  createUser,
-  signIn,
-  startTestApp,
-  type TestApp,
-  TokenClient,
-} from '../../support/test-app';
-import { type RunFixture, runFixture } from './run-support';
+import { type Actor, actors, readStatuses, signInActors } from '../../support/authorization-actors';
+import { BrowserClient, startTestApp, type TestApp } from '../../support/test-app';
+import { insertRunRow, type RunFixture, runFixture, sourceRow } from './run-support';
 
 type Caller = Pick<BrowserClient, 'get'>;
 
@@ -42,7 +33,7 @@ let f: RunFixture;
 let owner: BrowserClient;
 let runId = 0;
 const folder = mkdtempSync(join(tmpdir(), 'skysieve-quicklook-'));
-const callers = new Map<Actor, Caller>();
+let callers: Map<Actor, Caller>;
 
 /** 64 × 64 model plane: a ramp, the value of a pixel is its 0-based column. */
 const RAMP_SIZE = 64;
@@ -52,39 +43,14 @@ const SOURCE = { x: 20, y: 30 };
 const PSF = { fwhmMajor: 6, fwhmMinor: 4, pa: 0 };
 
 async function insertRun(status: 'succeeded' | 'queued'): Promise<number> {
-  const run = await Run.query().insertAndFetch({
-    imageId: f.imageId,
-    projectId: f.project.id,
-    createdBy: f.owner.id,
+  const run = await insertRunRow(f, {
     status,
-    requestedSettings: {},
     settings: { psf: PSF },
     settingsDigest: 'a'.repeat(64),
-    attempts: 1,
-    cancelRequested: false,
-    resultBytes: 0,
     sourceCount: status === 'succeeded' ? 1 : null,
-    finishedAt: status === 'succeeded' ? new Date() : null,
   });
   if (status === 'queued') return run.id;
-  await t.ctx.knex('run_sources').insert({
-    runId: run.id,
-    sourceId: 1,
-    ...SOURCE,
-    xErr: 0.1,
-    yErr: 0.1,
-    ra: 283.7,
-    dec: 38.6,
-    raErrArcsec: 0.2,
-    decErrArcsec: 0.2,
-    flux: 0.01,
-    fluxErr: 0.001,
-    fluxDensity: null,
-    fluxDensityErr: null,
-    snr: 10,
-    significance: null,
-    flags: [],
-  });
+  await t.ctx.knex('run_sources').insert(sourceRow(run.id, 1, SOURCE));
   const model = float32ToBytes(ramp);
   const signed = float32ToBytes(ramp.map((x) => (x - 32) / 32));
   const blank = float32ToBytes(new Float32Array(16).fill(NaN));
@@ -101,16 +67,7 @@ async function insertRun(status: 'succeeded' | 'queued'): Promise<number> {
 beforeAll(async () => {
   t = await startTestApp();
   f = await runFixture(t.ctx);
-  const admin = await createUser(t.ctx, { role: 'admin' });
-  const outsider = await createUser(t.ctx);
-  owner = await signIn(t.app, f.owner.email);
-  callers.set('admin', await signIn(t.app, admin.email));
-  callers.set('owner', owner);
-  callers.set('editor', await signIn(t.app, f.editor.email));
-  callers.set('viewer', await signIn(t.app, f.viewer.email));
-  callers.set('non-member', await signIn(t.app, outsider.email));
-  callers.set('signed-out', new BrowserClient(t.app));
-  callers.set('owner token', new TokenClient(t.app, (await createToken(f.owner, 'quicklook', null)).token));
+  ({ callers, owner } = await signInActors(t, f, 'quicklook'));
   runId = await insertRun('succeeded');
 }, 60_000);
 

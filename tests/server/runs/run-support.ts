@@ -15,6 +15,7 @@ import { writeFits } from '../../../server/engine/io/write-fits';
 import { beamSummary, pixelStatistics, wcsSummary } from '../../../server/images/image-analysis';
 import { Membership } from '../../../server/models/membership';
 import { Project } from '../../../server/models/project';
+import { Run } from '../../../server/models/run';
 import type { User } from '../../../server/models/user';
 import { createUser } from '../../support/test-app';
 
@@ -134,4 +135,63 @@ export async function waitForRun(
       throw new Error(`Run ${runId} still ${body.status} after ${timeoutMs} ms: ${JSON.stringify(body)}`);
     await new Promise((resolve) => setTimeout(resolve, 200));
   }
+}
+
+/**
+ * A run of the fixture's image by its owner, written straight into the table (no worker): succeeded with
+ * `sourceCount` sources unless `status` says otherwise; a finished run gets a finish time.
+ */
+export async function insertRunRow(
+  f: RunFixture,
+  fields: {
+    status?: 'succeeded' | 'queued';
+    requestedSettings?: Record<string, unknown>;
+    settings?: Record<string, unknown>;
+    settingsDigest: string;
+    sourceCount?: number | null;
+  },
+): Promise<Run> {
+  const {
+    status = 'succeeded',
+    requestedSettings = {},
+    settings = {},
+    settingsDigest,
+    sourceCount = null,
+  } = fields;
+  return Run.query().insertAndFetch({
+    imageId: f.imageId,
+    projectId: f.project.id,
+    createdBy: f.owner.id,
+    status,
+    requestedSettings,
+    settings,
+    settingsDigest,
+    attempts: 1,
+    cancelRequested: false,
+    resultBytes: 0,
+    sourceCount,
+    finishedAt: status === 'succeeded' ? new Date() : null,
+  });
+}
+
+/** A catalogue row (run_sources) at pixel (x, y) with RA/Dec, flux 0.01 ± 0.001 and SNR 10. */
+export function sourceRow(runId: number, sourceId: number, position: { x: number; y: number }) {
+  return {
+    runId,
+    sourceId,
+    ...position,
+    xErr: 0.1,
+    yErr: 0.1,
+    ra: 283.7,
+    dec: 38.6,
+    raErrArcsec: 0.2,
+    decErrArcsec: 0.2,
+    flux: 0.01,
+    fluxErr: 0.001,
+    fluxDensity: null,
+    fluxDensityErr: null,
+    snr: 10,
+    significance: null,
+    flags: [],
+  };
 }

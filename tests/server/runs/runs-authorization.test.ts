@@ -9,40 +9,28 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 
 import { float32ToBytes } from '../../../server/models/run-component';
 import { Run } from '../../../server/models/run';
-import type { User } from '../../../server/models/user';
 import { stopRunQueue } from '../../../server/queue/run-queue';
-import { createToken } from '../../../server/tokens/tokens.service';
-import { type Actor, actors, editorsStatuses, readStatuses } from '../../support/authorization-actors';
 import {
-  BrowserClient,
-  createUser,
-  signIn,
-  startTestApp,
-  type TestApp,
-  TokenClient,
-} from '../../support/test-app';
-import { fastSettings, type RunFixture, runFixture } from './run-support';
+  type Actor,
+  actors,
+  editorsStatuses,
+  readStatuses,
+  signInActors,
+} from '../../support/authorization-actors';
+import { BrowserClient, signIn, startTestApp, type TestApp } from '../../support/test-app';
+import { fastSettings, insertRunRow, type RunFixture, runFixture, sourceRow } from './run-support';
 
 type Caller = Pick<BrowserClient, 'get' | 'post' | 'delete'>;
 
 let t: TestApp;
 let f: RunFixture;
 let finishedRunId = 0;
-const callers = new Map<Actor, Caller>();
+let callers: Map<Actor, Caller>;
 
 beforeAll(async () => {
   t = await startTestApp();
   f = await runFixture(t.ctx);
-  const admin = await createUser(t.ctx, { role: 'admin' });
-  const outsider = await createUser(t.ctx);
-  const signedIn = async (user: User) => signIn(t.app, user.email);
-  callers.set('admin', await signedIn(admin));
-  callers.set('owner', await signedIn(f.owner));
-  callers.set('editor', await signedIn(f.editor));
-  callers.set('viewer', await signedIn(f.viewer));
-  callers.set('non-member', await signedIn(outsider));
-  callers.set('signed-out', new BrowserClient(t.app));
-  callers.set('owner token', new TokenClient(t.app, (await createToken(f.owner, 'runs matrix', null)).token));
+  ({ callers } = await signInActors(t, f, 'runs matrix'));
   finishedRunId = await insertFinishedRun();
 }, 60_000);
 
@@ -52,39 +40,8 @@ afterAll(async () => {
 });
 
 async function insertFinishedRun(): Promise<number> {
-  const run = await Run.query().insertAndFetch({
-    imageId: f.imageId,
-    projectId: f.project.id,
-    createdBy: f.owner.id,
-    status: 'succeeded',
-    requestedSettings: {},
-    settings: {},
-    settingsDigest: 'f'.repeat(64),
-    attempts: 1,
-    cancelRequested: false,
-    resultBytes: 0,
-    sourceCount: 1,
-    finishedAt: new Date(),
-  });
-  await t.ctx.knex('run_sources').insert({
-    runId: run.id,
-    sourceId: 1,
-    x: 10,
-    y: 12,
-    xErr: 0.1,
-    yErr: 0.1,
-    ra: 283.7,
-    dec: 38.6,
-    raErrArcsec: 0.2,
-    decErrArcsec: 0.2,
-    flux: 0.01,
-    fluxErr: 0.001,
-    fluxDensity: null,
-    fluxDensityErr: null,
-    snr: 10,
-    significance: null,
-    flags: [],
-  });
+  const run = await insertRunRow(f, { settingsDigest: 'f'.repeat(64), sourceCount: 1 });
+  await t.ctx.knex('run_sources').insert(sourceRow(run.id, 1, { x: 10, y: 12 }));
   const data = float32ToBytes(new Float32Array(64 * 64).fill(1));
   await t.ctx
     .knex('run_components')

@@ -11,11 +11,13 @@ import type { HeaderCardDto } from '@shared/images';
 import JointRunPanel from '@/components/runs/JointRunPanel.vue';
 import { emptyRow, jointRequest, moveRow, rowIssues } from '@/components/runs/joint-run-form';
 import { gridLink } from '@/components/runs/joint-view-link';
+import ComparisonPage from '@/pages/ComparisonPage.vue';
 import ImageLibraryPage from '@/pages/ImageLibraryPage.vue';
 import JointRunSetupPage from '@/pages/JointRunSetupPage.vue';
 import RunPage from '@/pages/RunPage.vue';
 import RunSetupPage from '@/pages/RunSetupPage.vue';
-import { apiError } from '../support/api-mock';
+import { apiError, type MockRequest } from '../support/api-mock';
+import { makeComparison, makeCrossMatch, mockComparisonApi } from '../comparisons/comparison-support';
 import { makeUser } from '../support/fixtures';
 import { mountPage, pageText, settle, unmountAll } from '../support/mount';
 import { makeImage, mockLibraryApi } from '../images/library-support';
@@ -275,5 +277,34 @@ describe('RunSetupPage', () => {
     expect(wrapper.get('[data-test="joint-setup-link"]').attributes('href')).toBe(
       '/projects/7/joint-runs/new?images=11',
     );
+  });
+});
+
+describe('ComparisonPage with a joint run', () => {
+  it('names the joint run as joint wherever runs are named', async () => {
+    const base = makeComparison();
+    const comparison = {
+      ...base,
+      runs: base.runs.map((run, i) => (i === 0 ? { ...run, kind: 'joint' as const } : run)),
+    };
+    mockComparisonApi({
+      'GET /api/comparisons/:id': { body: comparison },
+      'GET /api/comparisons/:id/cross-match': { body: makeCrossMatch() },
+      'GET /api/runs/:id/sources': (request: MockRequest) => ({
+        body: {
+          sources: [makeSource({ id: Number(request.params.id) - 40 })],
+          page: 1,
+          pageSize: 1000,
+          total: 1,
+          caution: 'Model-dependent catalogue.',
+        },
+      }),
+    } as never);
+    await mountPage(ComparisonPage, { path: '/comparisons/5', user: makeUser({ id: 1 }) });
+    await settle();
+    const first = comparison.runs[0]!.id;
+    const second = comparison.runs[1]!.id;
+    expect(pageText()).toMatch(new RegExp(`Run ${first} \\([a-z-]+\\) \\(joint\\)`));
+    expect(pageText()).not.toContain(`Run ${second} (deep-search) (joint)`);
   });
 });

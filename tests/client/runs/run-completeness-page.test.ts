@@ -259,6 +259,13 @@ describe('RunCompletenessPage', () => {
     expect(pageText()).toContain('“x” is not a positive number.');
     expect(wrapper.get('[data-test="start-study"]').attributes('disabled')).toBeDefined();
     await wrapper.get('input[data-test="levels"]').setValue('40 5');
+    // Each number input shows its own error and blocks the start until it is corrected.
+    await wrapper.get('input[data-test="radius"]').setValue('2');
+    expect(pageText()).toContain('The distance must be from 3 to 10 FWHM.');
+    await wrapper.get('input[data-test="seed"]').setValue('1.5');
+    expect(pageText()).toContain('The seed must be a whole number.');
+    expect(wrapper.get('[data-test="start-study"]').attributes('disabled')).toBeDefined();
+    await wrapper.get('input[data-test="radius"]').setValue('3');
     await wrapper.get('input[data-test="sources-per-level"]').setValue('6');
     await wrapper.get('input[data-test="seed"]').setValue('7');
     await wrapper.get('[data-test="study-form"]').trigger('submit');

@@ -87,7 +87,7 @@ describe('a joint run in the browser', () => {
     await page.getByRole('button', { name: 'Start joint run' }).click();
     await page.waitForURL(/\/runs\/\d+$/);
     await expect
-      .poll(() => page.getByTestId('scale-row-2').textContent(), { timeout: 120_000, intervals: [500] })
+      .poll(() => page.getByTestId('scale-row-2').textContent(), { timeout: 120_000, interval: 500 })
       .toMatch(/1\.0\d+ ± 0\.00\d+/);
     expect(await page.getByTestId('scale-row-1').textContent()).toContain('1 (fixed)');
     await page.getByTestId('joint-viewer-2').locator('canvas').first().waitFor({ timeout: 20_000 });

@@ -26,17 +26,21 @@ export function crossMatchRoutes(ctx: AppContext): AnyRouteSpec[] {
   const controller = crossMatchController(ctx);
   const maxBytes = Math.min(REFERENCE_CATALOGUE_MAX_BYTES, ctx.config.uploadMaxBytes);
   const tag = 'Cross-match';
+  // Preview and upload read the same file the same way, with the same rights.
+  const readsReferenceFile = () => ({
+    tag,
+    access: 'signed-in' as const,
+    params: projectIdParamsSchema,
+    query: referenceReadOptionsSchema,
+    // The role check comes before the body is read, so nobody without the right sends a file into memory.
+    load: [loadProject('editor'), receiveReferenceFile(maxBytes)],
+  });
   return [
     defineRoute({
       method: 'post',
       path: '/api/projects/:id/reference-catalogues/preview',
       summary: `How a reference catalogue file would be read (columns, mapping, first rows, rejected rows); nothing is stored. ${fileDescription}`,
-      tag,
-      access: 'signed-in',
-      params: projectIdParamsSchema,
-      query: referenceReadOptionsSchema,
-      // The role check comes before the body is read, so nobody without the right sends a file into memory.
-      load: [loadProject('editor'), receiveReferenceFile(maxBytes)],
+      ...readsReferenceFile(),
       responses: {
         200: { description: 'Preview', schema: referencePreviewSchema },
         ...errors(403, 404, 413, 422),
@@ -47,11 +51,7 @@ export function crossMatchRoutes(ctx: AppContext): AnyRouteSpec[] {
       method: 'post',
       path: '/api/projects/:id/reference-catalogues',
       summary: `Upload a reference catalogue (CSV or VOTable TABLEDATA), charged to the project owner's quota. ${fileDescription}`,
-      tag,
-      access: 'signed-in',
-      params: projectIdParamsSchema,
-      query: referenceReadOptionsSchema,
-      load: [loadProject('editor'), receiveReferenceFile(maxBytes)],
+      ...readsReferenceFile(),
       responses: {
         201: { description: 'Stored', schema: referenceCatalogueDetailSchema },
         ...errors(403, 404, 413, 422),

@@ -65,6 +65,14 @@ function requireSucceededRun(run: Run): void {
         'detected sources and compact component are needed).',
     );
   }
+  if (run.kind === 'joint') {
+    // The trials re-run a single-image fit: on a joint run that would measure another fit than the catalogue's.
+    throw new AppError(
+      'unprocessable',
+      `Run ${run.id} is a joint run of several images; injection studies measure the completeness of ` +
+        'single-image runs only. Measure it on a single-image run of the reference image.',
+    );
+  }
 }
 
 interface StudyImageRow {

@@ -243,6 +243,19 @@ describe('a joint run that succeeds', () => {
     expect(refused.body.error.message).toMatch(/^Only runs of the same image can be compared/);
   }, 130_000);
 
+  it('refuses an injection study: its trials would re-run a single-image fit (422, nothing stored)', async () => {
+    const refused = await owner.post(`/api/runs/${runId}/injection-studies`, {
+      levelKind: 'snr',
+      levels: [10],
+      sourcesPerLevel: 4,
+      seed: 1,
+    });
+    expect(refused.status, JSON.stringify(refused.body)).toBe(422);
+    expect(refused.body.error.message).toMatch(/is a joint run of several images; injection studies measure/);
+    const rows = await t.ctx.knex('injection_studies').where('runId', runId).count({ n: '*' });
+    expect(Number(rows[0]!.n)).toBe(0);
+  });
+
   it('writes image 2’s planes as FITS with image 2’s own WCS (read back by astropy)', async () => {
     const fits = await owner
       .get(`/api/runs/${runId}/components/model?image=2&format=fits`)

@@ -390,9 +390,12 @@ describe('cancel, events and failure', () => {
   }, 90_000);
 
   it('streams status and progress as Server-Sent Events and closes at the end', async () => {
-    // 160² so that the fit lasts longer than the stream's 0.5 s database poll and progress is seen.
+    // 160² and the whole iteration budget (no settle stop) so that the fit lasts a few seconds, longer than the
+    // stream's 0.5 s database poll, and progress is seen.
     const imageId = await storeImage(t.ctx, f.project.id, f.owner, smallSky(12, 160), 'lyra-sse.fits');
-    const started = await owner.post(`/api/images/${imageId}/runs`, { settings: fastSettings });
+    const started = await owner.post(`/api/images/${imageId}/runs`, {
+      settings: { ...fastSettings, settleTolerance: 1e-9 },
+    });
     const response = await owner.agent
       .get(`/api/runs/${started.body.id}/events`)
       .buffer(true)

@@ -258,6 +258,8 @@ describe('RunPage of a joint run', () => {
     expect(wrapper.get('[data-test="joint-summary"]').text()).toContain('jointly with 1 more image');
     expect(wrapper.get('[data-test="scale-row-2"]').text()).toContain('1.0651 ± 0.0021');
     expect(wrapper.get('[data-test="provenance"]').text()).toContain('Input 2');
+    // injection studies re-run single-image fits: the server refuses them for a joint run, so no link to one
+    expect(wrapper.find('[data-test="completeness-link"]').exists()).toBe(false);
     const panel = wrapper.getComponent(JointRunPanel);
     expect((panel.props('sources') ?? []).map((s) => s.id)).toEqual([1]);
   });

@@ -21,13 +21,15 @@
  * over `changeWindow` iterations the model image and K ⊛ u moved by less than `changeTolerance` σ RMS. The
  * second test is the one that ends most stages: the objective keeps falling slowly along directions that hardly
  * change the prediction (the shape of u inside a source, fixed only by the prior), and the catalogue refits each
- * source anyway (sources/extract-sources.ts). On the acceptance skies it halved the evaluations with the same
- * completeness, bias and pulls; on the bench sky at 512² it ended the fit after 187 instead of 745 evaluations
- * with the same diffuse error and the same sources found. A peak test (the largest change at any pixel) kept
- * stages running for hundreds of iterations on slow trades of flux at the brightest sources. The early stages only prepare the next one: each gets a third of
- * `maxIterations` and 10× (diffuse) or 5× (joint rounds) the decrease tolerance and 5× the change tolerance;
- * the final stage gets the full budget and tolerances.
- * The joint stages free only the compact pixels near an "on" one (`activeRadius`); the others stay off.
+ * source anyway (sources/extract-sources.ts). When it was introduced it halved the evaluations on the acceptance
+ * skies with the same completeness, bias and pulls, and on the 512² bench sky it ended the fit after 187 instead
+ * of 745 evaluations with the same diffuse error and sources. A peak test (the largest change at any pixel) kept
+ * stages running for hundreds of iterations on slow trades of flux at the brightest sources.
+ * The early stages only prepare the next one: each gets a third of `maxIterations` and 10× (diffuse) or 5×
+ * (joint rounds) the decrease tolerance and 5× the change tolerance; the final stage gets the full budget and
+ * tolerances. Stage 1 runs on the image binned 2 × 2 when that is sound (`coarseStart`, binnedInput).
+ * Every stage frees only the diffuse modes the data can move (`modeFloor`) and the compact pixels near an "on"
+ * one (`activeRadius`); the others keep their values (SeparationModel.fixCompact).
  * Deterministic: no randomness anywhere; the same input and settings give the same numbers.
  */
 import { createConvolver, goodFftSize } from '../fft';
@@ -156,24 +158,30 @@ export function paddedSize(side: number, fwhmMajor: number): number {
   return goodFftSize(side + Math.max(Math.ceil(0.2 * side), Math.ceil(4 * fwhmMajor) + 8));
 }
 
-/** out[a] = base[a] + d[o + j]·y[o + j] for a = active[j]: the change of variables on the free compact pixels. */
+/** out[a] = base[a] + d[o + j]·y[o + j] for a = free[j]: the change of variables on the free modes or pixels. */
 function scatterShift(
   out: Float64Array,
   base: Float64Array,
   d: Float64Array,
   y: Float64Array,
   o: number,
-  active: Int32Array,
+  free: Int32Array,
 ): void {
-  for (let j = 0; j < active.length; j++) {
-    const a = active[j]!;
+  for (let j = 0; j < free.length; j++) {
+    const a = free[j]!;
     out[a] = base[a]! + d[o + j]! * y[o + j]!;
   }
 }
 
-/** g[o + j] = d[o + j]·grad[active[j]]. */
-function gatherScaled(g: Float64Array, d: Float64Array, grad: Float64Array, o: number, active: Int32Array): void {
-  for (let j = 0; j < active.length; j++) g[o + j] = d[o + j]! * grad[active[j]!]!;
+/** g[o + j] = d[o + j]·grad[free[j]]: the gradient in the preconditioned variables. */
+function gatherScaled(
+  g: Float64Array,
+  d: Float64Array,
+  grad: Float64Array,
+  o: number,
+  free: Int32Array,
+): void {
+  for (let j = 0; j < free.length; j++) g[o + j] = d[o + j]! * grad[free[j]!]!;
 }
 
 /**
@@ -233,7 +241,8 @@ export function freeModes(
   let count = 0;
   for (let i = 0; i < power.length; i++) if (power[i]! * transferPower[i]! * kappa >= floor) count++;
   const out = new Int32Array(count);
-  for (let i = 0, j = 0; i < power.length; i++) if (power[i]! * transferPower[i]! * kappa >= floor) out[j++] = i;
+  for (let i = 0, j = 0; i < power.length; i++)
+    if (power[i]! * transferPower[i]! * kappa >= floor) out[j++] = i;
   return out;
 }
 
@@ -283,7 +292,8 @@ export function binnedInput(input: FitInput): FitInput | null {
   if (wc < 32 || hc < 32) return null;
   const dataC = new Float64Array(wc * hc);
   const validC = new Uint8Array(wc * hc);
-  const sigmaC = noise.kind === 'gaussian' && typeof noise.sigma !== 'number' ? new Float64Array(wc * hc) : null;
+  const sigmaC =
+    noise.kind === 'gaussian' && typeof noise.sigma !== 'number' ? new Float64Array(wc * hc) : null;
   let validCount = 0;
   for (let yc = 0; yc < hc; yc++) {
     for (let xc = 0; xc < wc; xc++) {
@@ -312,9 +322,7 @@ export function binnedInput(input: FitInput): FitInput | null {
     data: dataC,
     valid: validC,
     noise:
-      noise.kind === 'poisson'
-        ? noise
-        : { kind: 'gaussian', sigma: sigmaC ?? 2 * (noise.sigma as number) },
+      noise.kind === 'poisson' ? noise : { kind: 'gaussian', sigma: sigmaC ?? 2 * (noise.sigma as number) },
     psf: { ...psf, fwhmMajorPx: psf.fwhmMajorPx / 2, fwhmMinorPx: psf.fwhmMinorPx / 2 },
   };
 }
@@ -565,7 +573,8 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     const changeSinceLastCheck = (): number => {
       compactPadded.fill(0);
       for (let y = 0; y < height; y++) {
-        for (let x = 0; x < width; x++) compactPadded[y * pw + x] = Math.exp(model.clipTau(tau[y * width + x]!));
+        for (let x = 0; x < width; x++)
+          compactPadded[y * pw + x] = Math.exp(model.clipTau(tau[y * width + x]!));
       }
       model.convolve(compactPadded, compactPadded);
       return rmsChange(model.modelPadded, compactPadded, lastModel, lastCompact, weight, width, height, pw);
@@ -752,9 +761,21 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       });
     } else {
       setSpectrum(kc);
-      runStage('diffuse', { diffuse: true, compact: false }, 10 * absoluteDecrease, early, 5 * changeTolerance);
+      runStage(
+        'diffuse',
+        { diffuse: true, compact: false },
+        10 * absoluteDecrease,
+        early,
+        5 * changeTolerance,
+      );
       updateSpectrum(kc / 2, kc);
-      runStage('diffuse', { diffuse: true, compact: false }, 10 * absoluteDecrease, early, 5 * changeTolerance);
+      runStage(
+        'diffuse',
+        { diffuse: true, compact: false },
+        10 * absoluteDecrease,
+        early,
+        5 * changeTolerance,
+      );
     }
     // Stage 2: full spectrum.
     if (!options.diffuseOnly) updateSpectrum(kc / 2, null);
@@ -784,7 +805,13 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
         const u = Math.exp(model.clipTau(tau[seed.index]!));
         tau[seed.index] = model.clipTau(Math.log(u + seed.flux));
       }
-      runStage(`joint-${round}`, { diffuse: true, compact: true }, 5 * absoluteDecrease, early, 5 * changeTolerance);
+      runStage(
+        `joint-${round}`,
+        { diffuse: true, compact: true },
+        5 * absoluteDecrease,
+        early,
+        5 * changeTolerance,
+      );
       updateSpectrum(kc / 2, null);
     }
     if (!options.diffuseOnly) {

@@ -10,10 +10,11 @@
  * Everything is computed in memory first, then each file is written under a temporary name and renamed.
  */
 import { createHash } from 'node:crypto';
-import { mkdir, readFile, rename, rm, writeFile } from 'node:fs/promises';
-import { basename, join } from 'node:path';
+import { mkdir, readFile } from 'node:fs/promises';
+import { basename } from 'node:path';
 import type { CatalogueProvenance } from '../catalogue/catalogue-table';
 import { writeCatalogueFiles, type CatalogueFormat } from '../catalogue/write-catalogue-files';
+import { writeAtomically } from './run-separation';
 import { readImageAsync, type SkyImage } from '../engine/io/read-image';
 import { writeFits } from '../engine/io/write-fits';
 import { commonGridDropsSip, commonGridHeader } from '../engine/joint/common-grid';
@@ -169,22 +170,6 @@ export async function runJointSeparation(request: JointRunRequest): Promise<Join
   };
   files.push(...(await writeCatalogueFiles(request.outDir, request.formats, result.catalogue, provenance)));
   return { result, files, wallTimeSeconds };
-}
-
-async function writeAtomically(dir: string, contents: [string, Uint8Array | string][]): Promise<string[]> {
-  const partials = contents.map(([name]) => join(dir, `${name}.partial-${process.pid}`));
-  try {
-    for (const [index, [, content]] of contents.entries()) await writeFile(partials[index]!, content);
-    const written: string[] = [];
-    for (const [index, [name]] of contents.entries()) {
-      await rename(partials[index]!, join(dir, name));
-      written.push(join(dir, name));
-    }
-    return written;
-  } catch (error) {
-    await Promise.all(partials.map((path) => rm(path, { force: true })));
-    throw error;
-  }
 }
 
 function runRecord(

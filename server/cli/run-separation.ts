@@ -125,7 +125,11 @@ export async function runSeparation(request: SeparationRunRequest): Promise<Sepa
   return { result, files, wallTimeSeconds };
 }
 
-async function writeAtomically(dir: string, contents: [string, Uint8Array | string][]): Promise<string[]> {
+/** Writes every file under a temporary name, then renames them all; on an error removes the partial files. */
+export async function writeAtomically(
+  dir: string,
+  contents: [string, Uint8Array | string][],
+): Promise<string[]> {
   const partials = contents.map(([name]) => join(dir, `${name}.partial-${process.pid}`));
   try {
     for (const [index, [, content]] of contents.entries()) await writeFile(partials[index]!, content);

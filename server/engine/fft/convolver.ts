@@ -12,16 +12,20 @@
 import { checkLength } from './check-size';
 import { transformFor } from './real-fft-2d';
 import { scratchSpectrum } from './shared-buffers';
-import type { RealFft2d, TransformOptions } from './types';
+import type { FusedKernel, RealFft2d, TransformOptions } from './types';
 
 export interface Convolver {
   readonly width: number;
   readonly height: number;
   readonly implementation: string;
-  /** out = kernel ⊛ x (width·height row-major each). `x` and `out` may be the same array. */
-  apply(x: Float64Array, out: Float64Array): void;
-  /** out = kernel ⋆ x, the adjoint of apply. `x` and `out` may be the same array. */
-  adjoint(x: Float64Array, out: Float64Array): void;
+  /**
+   * out = kernel ⊛ x (width·height row-major each). `x` and `out` may be the same array. `shift`: a value near
+   * the mean of x for the float32 transforms to take out before rounding (types.ts FusedTransforms.convolve;
+   * computed when omitted, 0 for data without a pedestal); other backends ignore it.
+   */
+  apply(x: Float64Array, out: Float64Array, shift?: number): void;
+  /** out = kernel ⋆ x, the adjoint of apply. `x` and `out` may be the same array; `shift` as for apply. */
+  adjoint(x: Float64Array, out: Float64Array, shift?: number): void;
   dispose(): void;
 }
 
@@ -52,6 +56,10 @@ class FftConvolver implements Convolver {
   private readonly re: Float64Array;
   private readonly im: Float64Array;
 
+  /** The backend's own kernel spectra (fused path, types.ts): of k, and of k(−p) for the adjoint (null when
+   *  the kernel is centro-symmetric, so the two are the same). The float64 spectra are then not kept. */
+  private readonly fused: { apply: FusedKernel; adjoint: FusedKernel | null } | null = null;
+
   constructor(
     private readonly fft: RealFft2d,
     kernel: Float64Array,
@@ -60,18 +68,31 @@ class FftConvolver implements Convolver {
     this.width = fft.width;
     this.height = fft.height;
     this.implementation = fft.implementation;
+    const symmetric = isCentroSymmetric(kernel, fft.width, fft.height);
+    if (fft.fused) {
+      this.re = this.im = this.kernelRe = new Float64Array(0);
+      this.kernelIm = null;
+      const apply = fft.fused.kernel(kernel);
+      this.fused = {
+        apply,
+        adjoint: symmetric ? null : fft.fused.kernel(mirrored(kernel, fft.width, fft.height)),
+      };
+      return;
+    }
     ({ re: this.re, im: this.im } = scratchSpectrum(fft));
     this.kernelRe = new Float64Array(fft.spectrumWidth * fft.height);
     fft.forward(kernel, this.kernelRe, this.im);
-    this.kernelIm = isCentroSymmetric(kernel, fft.width, fft.height) ? null : this.im.slice();
+    this.kernelIm = symmetric ? null : this.im.slice();
   }
 
-  apply(x: Float64Array, out: Float64Array): void {
-    this.run(x, out, 1);
+  apply(x: Float64Array, out: Float64Array, shift?: number): void {
+    if (this.fused) this.fft.fused!.convolve(x, out, this.fused.apply, shift);
+    else this.run(x, out, 1);
   }
 
-  adjoint(x: Float64Array, out: Float64Array): void {
-    this.run(x, out, -1);
+  adjoint(x: Float64Array, out: Float64Array, shift?: number): void {
+    if (this.fused) this.fft.fused!.convolve(x, out, this.fused.adjoint ?? this.fused.apply, shift);
+    else this.run(x, out, -1);
   }
 
   private run(x: Float64Array, out: Float64Array, conjugate: 1 | -1): void {
@@ -96,8 +117,20 @@ class FftConvolver implements Convolver {
   }
 
   dispose(): void {
+    this.fused?.apply.dispose();
+    this.fused?.adjoint?.dispose();
     if (this.ownsFft) this.fft.dispose();
   }
+}
+
+/** k(−x, −y) on the periodic grid: its spectrum is conj K, so convolving with it is the adjoint. */
+function mirrored(kernel: Float64Array, width: number, height: number): Float64Array {
+  const out = new Float64Array(kernel.length);
+  for (let y = 0; y < height; y++) {
+    const my = (height - y) % height;
+    for (let x = 0; x < width; x++) out[my * width + ((width - x) % width)] = kernel[y * width + x]!;
+  }
+  return out;
 }
 
 /** True when k(−x, −y) = k(x, y) exactly on the periodic grid. */

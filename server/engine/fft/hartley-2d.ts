@@ -15,8 +15,9 @@ export interface Hartley2d {
   readonly width: number;
   readonly height: number;
   readonly implementation: string;
-  /** output = H(input); both width·height row-major; they must be different arrays. */
-  transform(input: Float64Array, output: Float64Array): void;
+  /** output = H(input); both width·height row-major; they must be different arrays. `shift`: as for
+   *  Convolver.apply (float32 fused path only). */
+  transform(input: Float64Array, output: Float64Array, shift?: number): void;
   dispose(): void;
 }
 
@@ -42,12 +43,16 @@ class Hartley2dFromFft implements Hartley2d {
     ({ re: this.re, im: this.im } = scratchSpectrum(fft));
   }
 
-  transform(input: Float64Array, output: Float64Array): void {
+  transform(input: Float64Array, output: Float64Array, shift?: number): void {
     const { width, height, re, im } = this;
     const spectrumWidth = this.fft.spectrumWidth;
     checkLength(input, width * height, 'Hartley input');
     checkLength(output, width * height, 'Hartley output');
     if (input === output) throw new RangeError('Hartley input and output must be different arrays');
+    if (this.fft.fused) {
+      this.fft.fused.hartley(input, output, shift);
+      return;
+    }
     this.fft.forward(input, re, im);
     const scale = 1 / Math.sqrt(width * height);
     for (let ky = 0; ky < height; ky++) {

@@ -46,6 +46,8 @@ export class PffftCore {
   private readonly work: number;
   private readonly rowHeap: HeapRegion;
   private readonly columnHeap: HeapRegion;
+  /** A second block of columns in WASM memory: the products of convolveColumns. */
+  private readonly productHeap: HeapRegion;
   private readonly columnStage: Float32Array;
   private disposed = false;
 
@@ -66,6 +68,7 @@ export class PffftCore {
     const columnPointer = pffft._pffft_aligned_malloc(columnFloats * FLOAT_BYTES);
     this.rowHeap = new HeapRegion(rowPointer, rowFloats);
     this.columnHeap = new HeapRegion(columnPointer, columnFloats);
+    this.productHeap = new HeapRegion(pffft._pffft_aligned_malloc(columnFloats * FLOAT_BYTES), columnFloats);
     this.columnStage = new Float32Array(columnFloats);
   }
 
@@ -146,6 +149,82 @@ export class PffftCore {
     }
   }
 
+  /**
+   * The column pass of a kernel's spectrum for convolveColumns: the half-spectrum columns of its row spectra
+   * (`rows`, from forwardRows) → forward complex transforms left in PFFFT's internal order, written to WASM
+   * memory at `target` (spectrumWidth columns of 2·height floats, allocated by the caller).
+   */
+  kernelColumns(rows: Float32Array, target: number): void {
+    const { width, height, spectrumWidth } = this;
+    for (let c = 0; c < spectrumWidth; c += COLUMN_BLOCK) {
+      const count = Math.min(COLUMN_BLOCK, spectrumWidth - c);
+      gatherColumns(rows, this.columnStage, width, height, c, count);
+      this.columnHeap.get().set(this.columnStage);
+      for (let j = 0; j < count; j++) {
+        const column = this.columnHeap.pointer + j * 2 * height * FLOAT_BYTES;
+        pffft._pffft_transform(
+          this.columnSetup,
+          column,
+          target + (c + j) * 2 * height * FLOAT_BYTES,
+          this.work,
+          PFFFT_FORWARD,
+        );
+      }
+    }
+  }
+
+  /**
+   * The column pass of a convolution, in place on the row spectra: each half-spectrum column [c0, c1) → forward
+   * complex transform (internal order) → times the kernel's column (kernelColumns) and `scaling`, in WASM
+   * (pffft_zconvolve_accumulate into a zeroed block) → backward transform → back into `rows`. No float64 half
+   * spectrum and no reordering: the product of two spectra does not depend on the order of their elements.
+   */
+  convolveColumns(rows: Float32Array, kernel: number, scaling: number, c0: number, c1: number): void {
+    const { width, height } = this;
+    const stage = this.columnStage;
+    const column = 2 * height * FLOAT_BYTES;
+    for (let c = c0; c < c1; c += COLUMN_BLOCK) {
+      const count = Math.min(COLUMN_BLOCK, c1 - c);
+      gatherColumns(rows, stage, width, height, c, count);
+      this.columnHeap.get().set(stage);
+      const product = this.productHeap.get();
+      product.fill(0, 0, count * 2 * height);
+      for (let j = 0; j < count; j++) {
+        const x = this.columnHeap.pointer + j * column;
+        const xk = this.productHeap.pointer + j * column;
+        pffft._pffft_transform(this.columnSetup, x, x, this.work, PFFFT_FORWARD);
+        pffft._pffft_zconvolve_accumulate(this.columnSetup, x, kernel + (c + j) * column, xk, scaling);
+        pffft._pffft_transform(this.columnSetup, xk, x, this.work, PFFFT_BACKWARD);
+      }
+      stage.set(this.columnHeap.get());
+      scatterColumns(stage, rows, width, height, c, count);
+    }
+  }
+
+  /**
+   * The column pass of the orthonormal Hartley transform (hartley-2d.ts): half-spectrum columns [c0, c1) of the
+   * row spectra → ordered column spectra F → output(k) = (Re F − Im F)·scale and, at the mirrored mode,
+   * (Re F + Im F)·scale, written straight into the float64 output grid (width·height); `dc` is added to F(0, 0).
+   */
+  hartleyColumns(
+    rows: Float32Array,
+    output: Float64Array,
+    scale: number,
+    dc: number,
+    c0: number,
+    c1: number,
+  ): void {
+    const { width, height, spectrumWidth } = this;
+    const stage = this.columnStage;
+    for (let c = c0; c < c1; c += COLUMN_BLOCK) {
+      const count = Math.min(COLUMN_BLOCK, c1 - c);
+      gatherColumns(rows, stage, width, height, c, count);
+      this.columnTransforms(count, PFFFT_FORWARD);
+      if (c === 0) stage[0] = stage[0]! + dc;
+      hartleyFromColumns(stage, output, width, height, spectrumWidth, c, count, scale);
+    }
+  }
+
   private columnTransforms(count: number, direction: number): void {
     const { height } = this;
     const heap = this.columnHeap.get();
@@ -162,7 +241,12 @@ export class PffftCore {
     this.disposed = true;
     pffft._pffft_destroy_setup(this.rowSetup);
     pffft._pffft_destroy_setup(this.columnSetup);
-    for (const pointer of [this.work, this.rowHeap.pointer, this.columnHeap.pointer]) {
+    for (const pointer of [
+      this.work,
+      this.rowHeap.pointer,
+      this.columnHeap.pointer,
+      this.productHeap.pointer,
+    ]) {
       pffft._pffft_aligned_free(pointer);
     }
   }
@@ -251,6 +335,32 @@ function scatterColumns(
   if (j1 === count - 1) {
     const h = j1 * 2 * height;
     for (let ky = 0; ky < height; ky++) rows[ky * width + 1] = stage[h + 2 * ky]!;
+  }
+}
+
+/** Hartley values of columns [c, c + count) from their ordered column spectra (PffftCore.hartleyColumns). */
+function hartleyFromColumns(
+  stage: Float32Array,
+  output: Float64Array,
+  width: number,
+  height: number,
+  spectrumWidth: number,
+  c: number,
+  count: number,
+  scale: number,
+) {
+  for (let ky = 0; ky < height; ky++) {
+    const row = ky * width;
+    // F(w − kx, h − ky) = conj F(kx, ky): the Hartley value there is (Re + Im)·scale.
+    const mirror = ((height - ky) % height) * width + width;
+    for (let j = 0; j < count; j++) {
+      const h = j * 2 * height + 2 * ky;
+      const re = stage[h]!;
+      const im = stage[h + 1]!;
+      const kx = c + j;
+      output[row + kx] = (re - im) * scale;
+      if (kx > 0 && width - kx >= spectrumWidth) output[mirror - kx] = (re + im) * scale;
+    }
   }
 }
 

@@ -35,6 +35,32 @@ export interface RealFft2d {
   whenReady(): Promise<boolean>;
   /** Releases worker threads and WASM memory; the object must not be used afterwards. */
   dispose(): void;
+  /**
+   * Transforms that skip the float64 half spectrum, where the backend has them (the float32 PFFFT backend on one
+   * thread): hartley-2d.ts and convolver.ts use them when present.
+   */
+  readonly fused?: FusedTransforms;
+}
+
+/** A kernel's spectrum held by the backend for FusedTransforms.convolve. */
+export interface FusedKernel {
+  /** Σ kernel (its spectrum at k = 0), in float64. */
+  readonly sum: number;
+  dispose(): void;
+}
+
+export interface FusedTransforms {
+  /** output = the orthonormal 2-D Hartley transform of input (hartley-2d.ts); different arrays. `shift`: see
+   *  convolve. */
+  hartley(input: Float64Array, output: Float64Array, shift?: number): void;
+  /** The spectrum of a kernel (width·height, centred at (0, 0)) for convolve. */
+  kernel(kernel: Float64Array): FusedKernel;
+  /**
+   * out = kernel ⊛ x (circular); x and out may be the same array. `shift` is taken out of x before rounding to
+   * float32 and put back exactly: the mean of x when omitted (one more pass over x); a caller that knows x has
+   * no pedestal passes 0, one that has just computed the mean passes it.
+   */
+  convolve(x: Float64Array, out: Float64Array, kernel: FusedKernel, shift?: number): void;
 }
 
 export type FftPrecision = 'float64' | 'float32';

@@ -33,6 +33,7 @@ import {
   type RealFft2d,
   supportsFloat32,
 } from '../fft';
+import { expArray, shiftExpAdd } from '../math/exp-array';
 
 export interface NoiseModel {
   kind: 'gaussian' | 'poisson';
@@ -190,7 +191,7 @@ export class SeparationModel {
   /** s = exp(μ + H(A ⊙ ξ)) into this.s (and φ into this.phi). */
   diffuseField(xi: Float64Array, mu: number): Float64Array {
     this.phiHat(xi, this.work);
-    this.hartley.transform(this.work, this.phi);
+    this.hartley.transform(this.work, this.phi, 0);
     shiftExp(this.phi, mu, this.s);
     return this.s;
   }
@@ -261,13 +262,15 @@ export class SeparationModel {
       }
     }
     // diffuse: φ̂ = A ⊙ ξ (with ½ Σ ξ²), φ = μ + H φ̂, s = exp φ, total = s + u
+    // (Fourier coefficients, residuals and gradients have no pedestal: their transforms take none out, shift 0;
+    // total's mean comes from shiftExpAdd.)
     prior += phiHatAndHalfSquares(this.amplitude, xi, this.work);
-    this.hartley.transform(this.work, this.phi);
+    this.hartley.transform(this.work, this.phi, 0);
     const s = this.s;
     const total = this.total;
-    expPlus(this.phi, mu, s, uPadded, total);
+    const totalMean = shiftExpAdd(this.phi, mu, s, uPadded, total) / this.n;
     const model = this.modelPadded;
-    this.convolver.apply(total, model);
+    this.convolver.apply(total, model, totalMean);
     // likelihood and its derivative r in the model, on the padded grid (0 outside valid image pixels)
     const r = this.residualDerivative;
     const like =
@@ -278,7 +281,7 @@ export class SeparationModel {
     if (!gXi && !gTau) return [f, 0];
     // adjoint: g_t = Kᵀ ⋆ r
     const gt = this.work;
-    this.convolver.adjoint(r, gt);
+    this.convolver.adjoint(r, gt, 0);
     let gMu = 0;
     if (gTau) {
       if (active && blocks.compact) {
@@ -297,7 +300,7 @@ export class SeparationModel {
     if (gXi && blocks.diffuse) {
       const product = this.work2;
       gMu = productInto(gt, s, product);
-      this.hartley.transform(product, gXi);
+      this.hartley.transform(product, gXi, 0);
       amplitudeGradient(this.amplitude, gXi, xi);
     } else if (gXi) {
       gXi.fill(0);
@@ -456,17 +459,6 @@ function phiHatAndHalfSquares(amplitude: Float64Array, xi: Float64Array, out: Fl
   return acc;
 }
 
-/** φ += μ; s = exp(min(φ, 700)); total = s + u. */
-function expPlus(phi: Float64Array, mu: number, s: Float64Array, u: Float64Array, total: Float64Array): void {
-  for (let i = 0; i < phi.length; i++) {
-    const p = phi[i]! + mu;
-    phi[i] = p;
-    const e = Math.exp(Math.min(p, 700));
-    s[i] = e;
-    total[i] = e + u[i]!;
-  }
-}
-
 /** out = a ⊙ b; returns Σ a ⊙ b. */
 function productInto(a: Float64Array, b: Float64Array, out: Float64Array): number {
   let sum = 0;
@@ -483,13 +475,10 @@ function amplitudeGradient(amplitude: Float64Array, g: Float64Array, xi: Float64
   for (let i = 0; i < g.length; i++) g[i] = amplitude[i]! * g[i]! + xi[i]!;
 }
 
-/** φ += μ; s = exp(min(φ, 700)). */
+/** φ += μ; s = exp(φ) as in expPlus. */
 function shiftExp(phi: Float64Array, mu: number, s: Float64Array): void {
-  for (let i = 0; i < phi.length; i++) {
-    const p = phi[i]! + mu;
-    phi[i] = p;
-    s[i] = Math.exp(Math.min(p, 700));
-  }
+  for (let i = 0; i < phi.length; i++) phi[i] = phi[i]! + mu;
+  expArray(phi, 0, s);
 }
 
 /** |K_k|² for every Hartley mode of the padded grid, from the real FFT of the kernel (Hermitian mirror). */

@@ -7,7 +7,15 @@ import {
   goodFftSize,
   supportsFloat32,
 } from '../../../server/engine/fft';
-import { dot, maxAbsDifference, naiveDft2d, randomArray } from './reference';
+import {
+  dot,
+  maxAbs,
+  maxAbsDifference,
+  naiveConvolve,
+  naiveDft2d,
+  naiveHartley,
+  randomArray,
+} from './reference';
 
 /**
  * float32 backend (PFFFT in WASM). Tolerances: float32 has ε = 2^−24 ≈ 6e−8; an FFT's error grows like
@@ -109,5 +117,58 @@ describe('createRealFft2d (float32)', () => {
     expect(Math.abs(left - right) / Math.sqrt(dot(ax, ax) * dot(y, y)), `${left} vs ${right}`).toBeLessThan(
       1e-6,
     );
+  });
+
+  // The fused paths (types.ts FusedTransforms: Hartley and convolution without the float64 half spectrum) against
+  // the direct sums from their definitions, on a grid with a bright pedestal (the mean is taken out before
+  // rounding to float32 and put back in float64) and with a kernel that is not centro-symmetric (its adjoint
+  // runs on the mirrored kernel's spectrum).
+  it.each([
+    [64, 48],
+    [96, 32],
+  ])('%i×%i fused Hartley and convolution match the direct sums', (width, height) => {
+    const n = width * height;
+    const fft = createRealFft2d(width, height, { precision: 'float32' });
+    expect(fft.fused).toBeDefined();
+    const x = randomArray(n, 21, 100);
+    const h = createHartley2d(width, height, { fft });
+    const hx = new Float64Array(n);
+    h.transform(x, hx);
+    const wantH = naiveHartley(x, width, height);
+    expect(maxAbsDifference(hx, wantH).value / maxAbs(wantH)).toBeLessThan(2e-6);
+    const kernel = randomArray(n, 22).map((v, i) => (i % 7 === 0 ? Math.abs(v) : 0));
+    const conv = createConvolver(width, height, kernel, { fft });
+    for (const adjoint of [false, true]) {
+      const got = new Float64Array(n);
+      if (adjoint) conv.adjoint(x, got);
+      else conv.apply(x, got);
+      const want = naiveConvolve(kernel, x, width, height, adjoint);
+      expect(maxAbsDifference(got, want).value / maxAbs(want), adjoint ? 'adjoint' : 'apply').toBeLessThan(
+        2e-6,
+      );
+      // in place, as the model calls it
+      const inPlace = x.slice();
+      if (adjoint) conv.adjoint(inPlace, inPlace);
+      else conv.apply(inPlace, inPlace);
+      expect(maxAbsDifference(inPlace, got).value).toBe(0);
+    }
+    conv.dispose();
+    h.dispose();
+    fft.dispose();
+  });
+
+  it('has no fused paths with a second thread, and refuses a kernel spectrum of another grid', () => {
+    const threaded = createRealFft2d(512, 512, { precision: 'float32', threads: 2 });
+    expect(threaded.fused).toBeUndefined();
+    threaded.dispose();
+    const a = createRealFft2d(64, 32, { precision: 'float32' });
+    const b = createRealFft2d(96, 32, { precision: 'float32' });
+    const k = b.fused!.kernel(new Float64Array(96 * 32));
+    expect(() => a.fused!.convolve(new Float64Array(64 * 32), new Float64Array(64 * 32), k)).toThrow(
+      'convolve needs a kernel spectrum made by this transform',
+    );
+    k.dispose();
+    a.dispose();
+    b.dispose();
   });
 });

@@ -1,51 +1,7 @@
 // @vitest-environment node
 import { describe, expect, it } from 'vitest';
 import { createConvolver, createHartley2d, kernelFromCentredStamp } from '../../../server/engine/fft';
-import { dot, maxAbsDifference, randomArray } from './reference';
-
-/** Direct orthonormal DHT from its definition, H(k) = N^−½ Σ f(x) cas(2π(kx x/W + ky y/H)) (Bracewell 1986). */
-function naiveHartley(input: Float64Array, width: number, height: number): Float64Array {
-  const out = new Float64Array(width * height);
-  const scale = 1 / Math.sqrt(width * height);
-  for (let ky = 0; ky < height; ky++) {
-    for (let kx = 0; kx < width; kx++) {
-      let s = 0;
-      for (let y = 0; y < height; y++) {
-        for (let x = 0; x < width; x++) {
-          const angle = 2 * Math.PI * (((kx * x) % width) / width + ((ky * y) % height) / height);
-          s += input[y * width + x]! * (Math.cos(angle) + Math.sin(angle));
-        }
-      }
-      out[ky * width + kx] = s * scale;
-    }
-  }
-  return out;
-}
-
-/** Direct circular convolution Σ_q k(p − q) x(q) and correlation Σ_p k(p − q) x(p). */
-function naiveConvolve(
-  kernel: Float64Array,
-  x: Float64Array,
-  width: number,
-  height: number,
-  adjoint: boolean,
-) {
-  const out = new Float64Array(width * height);
-  for (let py = 0; py < height; py++) {
-    for (let px = 0; px < width; px++) {
-      let s = 0;
-      for (let qy = 0; qy < height; qy++) {
-        for (let qx = 0; qx < width; qx++) {
-          const dx = adjoint ? (qx - px + width) % width : (px - qx + width) % width;
-          const dy = adjoint ? (qy - py + height) % height : (py - qy + height) % height;
-          s += kernel[dy * width + dx]! * x[qy * width + qx]!;
-        }
-      }
-      out[py * width + px] = s;
-    }
-  }
-  return out;
-}
+import { dot, maxAbsDifference, naiveConvolve, naiveHartley, randomArray } from './reference';
 
 const SIZES: [number, number][] = [
   [1, 1],

@@ -31,6 +31,7 @@ export interface SeparationBenchRow {
   fftPairMs: number;
   peakRssBytes: number;
   maxRssBytes: number;
+  baselineRssBytes: number;
 }
 
 const size = Number(process.argv[2]);
@@ -44,7 +45,9 @@ const sampler = new MemorySampler();
 const sigma = 1;
 const fwhm = 3.5;
 const fluxError = isolatedFluxError(psfFromFwhm(fwhm, fwhm, 0), sigma);
-const sky = simulateSky({
+// Only the image and its mask stay referenced (the simulator's truth planes are dropped before the fit), so the
+// peak memory is that of the separation of one image held by its caller.
+const { image: skyImage, mask: skyMask } = simulateSky({
   width: size,
   height: size,
   seed: 4242 + size,
@@ -55,7 +58,9 @@ const sky = simulateSky({
   wcs: { projection: 'TAN', raDeg: 283.75, decDeg: 38.6, pixelArcsec: 1.5 },
   unit: 'Jy/beam',
 });
-const image = { width: size, height: size, data: sky.image, mask: sky.mask, unit: 'Jy/beam' };
+const image = { width: size, height: size, data: skyImage, mask: skyMask, unit: 'Jy/beam' };
+// RSS with the image in memory, before the first fit (the separation's own share is the peak minus this).
+const baselineRssBytes = process.memoryUsage().rss;
 const settings = { psf: { fwhmMajor: fwhm, fwhmMinor: fwhm, pa: 0 } };
 
 const wall: number[] = [];
@@ -93,6 +98,7 @@ const row: SeparationBenchRow = {
   fftPairMs: pair.medianMs,
   peakRssBytes: sampler.peakBytes,
   maxRssBytes: process.resourceUsage().maxRSS * 1024,
+  baselineRssBytes,
 };
 await sampler.stop();
 process.stdout.write(`${JSON.stringify(row)}\n`);

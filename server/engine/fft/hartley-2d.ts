@@ -30,8 +30,6 @@ class Hartley2dFromFft implements Hartley2d {
   readonly width: number;
   readonly height: number;
   readonly implementation: string;
-  private readonly re: Float64Array;
-  private readonly im: Float64Array;
 
   constructor(
     private readonly fft: RealFft2d,
@@ -40,11 +38,10 @@ class Hartley2dFromFft implements Hartley2d {
     this.width = fft.width;
     this.height = fft.height;
     this.implementation = fft.implementation;
-    ({ re: this.re, im: this.im } = scratchSpectrum(fft));
   }
 
   transform(input: Float64Array, output: Float64Array, shift?: number): void {
-    const { width, height, re, im } = this;
+    const { width, height } = this;
     const spectrumWidth = this.fft.spectrumWidth;
     checkLength(input, width * height, 'Hartley input');
     checkLength(output, width * height, 'Hartley output');
@@ -53,6 +50,8 @@ class Hartley2dFromFft implements Hartley2d {
       this.fft.fused.hartley(input, output, shift);
       return;
     }
+    // the shared scratch spectrum, fetched here so that a transform with fused paths never allocates it
+    const { re, im } = scratchSpectrum(this.fft);
     this.fft.forward(input, re, im);
     const scale = 1 / Math.sqrt(width * height);
     for (let ky = 0; ky < height; ky++) {

@@ -19,9 +19,10 @@
  *
  * Gradient (adjoint pass): r = ∂L/∂m on valid pixels (0 elsewhere, padding included), g_t = Kᵀ ⋆ r on the padded
  * grid; ∂/∂φ = g_t ⊙ s; ∂/∂ξ = A ⊙ H(g_t ⊙ s) + ξ; ∂/∂μ = Σ g_t ⊙ s; ∂/∂τ = g_t ⊙ u + α − q e^(−τ).
- * One evaluation: Hartley (1 real FFT), K ⊛ (2), Kᵀ ⋆ (2), Hartley (1): three forward + inverse FFT pairs, plus
- * five passes over the padded grid and one over the image; u and its prior only at the free compact pixels
- * (fixCompact), since a stage frees only those near sources.
+ * One evaluation: Hartley (1 real FFT), K ⊛ (2), Kᵀ ⋆ (2), Hartley (1): three forward + inverse FFT pairs (in
+ * float32 the fused paths of fft/types.ts, cheaper than three pairs), plus four passes over the padded grid and
+ * one over the image, on four padded arrays (s, modelPadded, work, uPadded); u and its prior only at the free
+ * compact pixels (fixCompact), since a stage frees only those near sources.
  */
 import {
   createConvolver,
@@ -55,6 +56,13 @@ export interface ModelSetup {
   kernel: Float64Array;
   alpha: number;
   q: number;
+  /**
+   * Arithmetic of the objective's transforms (the Hartley transform and the PSF convolution and its adjoint):
+   * 'float32' (PFFFT, fused paths, fft/types.ts; objective moved by ~1e−3 nats, fft/index.ts) or 'float64'.
+   * Falls back to float64 on grids PFFFT does not take (SeparationModel.precision says which is in use).
+   * @default 'float64'
+   */
+  precision?: FftPrecision;
 }
 
 /** Which blocks of parameters a stage frees. */
@@ -86,11 +94,10 @@ export class SeparationModel {
   /** The one real FFT of the padded grid: the Hartley transform, the PSF convolver and the fit's other
    *  convolvers (staged-fit.ts) all run on it (one scratch spectrum, one worker if any). */
   readonly fft: RealFft2d;
-  /** float32 transform for the objective's own passes when setPrecision('float32') asked for it (lazily). */
-  private fft32: RealFft2d | null = null;
-  private precision: FftPrecision = 'float64';
-  private convolver: Convolver;
-  private hartley: Hartley2d;
+  /** The arithmetic of fft (setup.precision, or float64 where float32 does not take the grid). */
+  readonly precision: FftPrecision;
+  private readonly convolver: Convolver;
+  private readonly hartley: Hartley2d;
   /** u = exp(clip τ) on the padded grid (0 in the padding): of the last evaluation at the free pixels, of the
    *  last fixCompact call at the others. */
   private readonly uPadded: Float64Array;
@@ -98,15 +105,13 @@ export class SeparationModel {
   private active: Int32Array | null = null;
   /** Σ (α τ + q e^(−τ)) over the pixels fixCompact held fixed. */
   private priorFixed = 0;
-  /** ∂L/∂m on the padded grid; the padding stays 0. */
-  private readonly residualDerivative: Float64Array;
-  // workspaces
-  readonly phi: Float64Array;
+  // Padded-grid workspaces: four arrays in all (with uPadded), each reused through the evaluation (evaluate).
+  /** s = exp φ of the last evaluation (φ itself is log s: the exponent is clamped to |φ| ≤ 700). */
   readonly s: Float64Array;
-  readonly total: Float64Array;
+  /** K ⊛ (s + u) of the last evaluation. */
   readonly modelPadded: Float64Array;
+  /** φ̂, then ∂L/∂m, Kᵀ ⋆ ∂L/∂m and its product with s, in turn. */
   private readonly work: Float64Array;
-  private readonly work2: Float64Array;
 
   constructor(setup: ModelSetup) {
     this.setup = setup;
@@ -116,19 +121,18 @@ export class SeparationModel {
     this.ph = setup.paddedHeight;
     this.n = this.pw * this.ph;
     this.m = this.width * this.height;
-    this.fft = createRealFft2d(this.pw, this.ph);
+    // |K|² in float64 on a transform of its own (released at once), before the fit's arrays exist.
+    this.transferPower = kernelTransferPower(setup.kernel, this.pw, this.ph);
+    this.precision =
+      setup.precision === 'float32' && supportsFloat32(this.pw, this.ph) ? 'float32' : 'float64';
+    this.fft = createRealFft2d(this.pw, this.ph, { precision: this.precision });
     this.convolver = createConvolver(this.pw, this.ph, setup.kernel, { fft: this.fft });
     this.hartley = createHartley2d(this.pw, this.ph, { fft: this.fft });
     this.amplitude = new Float64Array(this.n);
-    this.transferPower = kernelTransferPower(setup.kernel, this.pw, this.ph, this.fft);
     this.uPadded = new Float64Array(this.n);
-    this.residualDerivative = new Float64Array(this.n);
-    this.phi = new Float64Array(this.n);
     this.s = new Float64Array(this.n);
-    this.total = new Float64Array(this.n);
     this.modelPadded = new Float64Array(this.n);
     this.work = new Float64Array(this.n);
-    this.work2 = new Float64Array(this.n);
     let maxAbs = 0;
     let sum = 0;
     let count = 0;
@@ -147,30 +151,7 @@ export class SeparationModel {
   dispose(): void {
     this.convolver.dispose();
     this.hartley.dispose();
-    this.fft32?.dispose();
     this.fft.dispose();
-  }
-
-  /**
-   * Arithmetic of the objective's transforms (the Hartley transform and the PSF convolution and its adjoint):
-   * 'float32' (PFFFT, about twice as fast; objective moved by ~1e−3 nats, fft/index.ts) for the stages that only
-   * prepare the next one, 'float64' (the default) where the last hundredths of a nat matter. Falls back to
-   * float64 on grids PFFFT does not take. Returns the precision now in use.
-   */
-  setPrecision(precision: FftPrecision): FftPrecision {
-    const want = precision === 'float32' && supportsFloat32(this.pw, this.ph) ? 'float32' : 'float64';
-    if (want === this.precision) return want;
-    let fft = this.fft;
-    if (want === 'float32') {
-      this.fft32 ??= createRealFft2d(this.pw, this.ph, { precision: 'float32' });
-      fft = this.fft32;
-    }
-    this.convolver.dispose();
-    this.hartley.dispose();
-    this.convolver = createConvolver(this.pw, this.ph, this.setup.kernel, { fft });
-    this.hartley = createHartley2d(this.pw, this.ph, { fft });
-    this.precision = want;
-    return want;
   }
 
   setSpectrum(power: Float64Array): void {
@@ -188,11 +169,11 @@ export class SeparationModel {
     return out;
   }
 
-  /** s = exp(μ + H(A ⊙ ξ)) into this.s (and φ into this.phi). */
+  /** s = exp(μ + H(A ⊙ ξ)) into this.s. */
   diffuseField(xi: Float64Array, mu: number): Float64Array {
     this.phiHat(xi, this.work);
-    this.hartley.transform(this.work, this.phi, 0);
-    shiftExp(this.phi, mu, this.s);
+    this.hartley.transform(this.work, this.s, 0);
+    expArray(this.s, mu, this.s);
     return this.s;
   }
 
@@ -223,6 +204,20 @@ export class SeparationModel {
 
   clipTau(t: number): number {
     return t < this.tauMin ? this.tauMin : t > this.tauMax ? this.tauMax : t;
+  }
+
+  /**
+   * K ⊛ u for u = exp(clip τ) on the image (0 in the padding), on the padded grid, in the model's workspace: valid
+   * until the next evaluate or convolvedCompact call (the fit's change test reads it at once).
+   */
+  convolvedCompact(tau: Float64Array): Float64Array {
+    const { width, height, pw, work } = this;
+    work.fill(0);
+    for (let y = 0; y < height; y++) {
+      for (let x = 0; x < width; x++) work[y * pw + x] = Math.exp(this.clipTau(tau[y * width + x]!));
+    }
+    this.convolver.apply(work, work);
+    return work;
   }
 
   /** K ⊛ v for a padded-grid field (out may equal v). */
@@ -264,23 +259,24 @@ export class SeparationModel {
     // diffuse: φ̂ = A ⊙ ξ (with ½ Σ ξ²), φ = μ + H φ̂, s = exp φ, total = s + u
     // (Fourier coefficients, residuals and gradients have no pedestal: their transforms take none out, shift 0;
     // total's mean comes from shiftExpAdd.)
-    prior += phiHatAndHalfSquares(this.amplitude, xi, this.work);
-    this.hartley.transform(this.work, this.phi, 0);
     const s = this.s;
-    const total = this.total;
-    const totalMean = shiftExpAdd(this.phi, mu, s, uPadded, total) / this.n;
     const model = this.modelPadded;
-    this.convolver.apply(total, model, totalMean);
+    const work = this.work;
+    prior += phiHatAndHalfSquares(this.amplitude, xi, work);
+    this.hartley.transform(work, s, 0); // s = φ − μ for now
+    const totalMean = shiftExpAdd(s, mu, s, uPadded, model) / this.n; // s = exp φ, model = s + u
+    this.convolver.apply(model, model, totalMean);
     // likelihood and its derivative r in the model, on the padded grid (0 outside valid image pixels)
-    const r = this.residualDerivative;
+    const r = work;
     const like =
       noise.kind === 'gaussian'
         ? gaussianTerm(model, data, valid, noise.inverseVariance!, r, width, height, pw)
         : poissonTerm(model, data, valid, this.floor, r, width, height, pw);
+    zeroOutsideImage(r, width, height, pw);
     const f = like + prior;
     if (!gXi && !gTau) return [f, 0];
-    // adjoint: g_t = Kᵀ ⋆ r
-    const gt = this.work;
+    // adjoint: g_t = Kᵀ ⋆ r, in place
+    const gt = work;
     this.convolver.adjoint(r, gt, 0);
     let gMu = 0;
     if (gTau) {
@@ -298,7 +294,7 @@ export class SeparationModel {
       }
     }
     if (gXi && blocks.diffuse) {
-      const product = this.work2;
+      const product = work;
       gMu = productInto(gt, s, product);
       this.hartley.transform(product, gXi, 0);
       amplitudeGradient(this.amplitude, gXi, xi);
@@ -475,10 +471,10 @@ function amplitudeGradient(amplitude: Float64Array, g: Float64Array, xi: Float64
   for (let i = 0; i < g.length; i++) g[i] = amplitude[i]! * g[i]! + xi[i]!;
 }
 
-/** φ += μ; s = exp(φ) as in expPlus. */
-function shiftExp(phi: Float64Array, mu: number, s: Float64Array): void {
-  for (let i = 0; i < phi.length; i++) phi[i] = phi[i]! + mu;
-  expArray(phi, 0, s);
+/** a = 0 in the padding (columns ≥ width of the image rows, and every row ≥ height). */
+function zeroOutsideImage(a: Float64Array, width: number, height: number, pw: number): void {
+  if (pw > width) for (let y = 0; y < height; y++) a.fill(0, y * pw + width, (y + 1) * pw);
+  a.fill(0, height * pw);
 }
 
 /** |K_k|² for every Hartley mode of the padded grid, from the real FFT of the kernel (Hermitian mirror). */

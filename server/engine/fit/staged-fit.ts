@@ -158,7 +158,8 @@ export function paddedSize(side: number, fwhmMajor: number): number {
   return goodFftSize(side + Math.max(Math.ceil(0.2 * side), Math.ceil(4 * fwhmMajor) + 8));
 }
 
-/** out[a] = base[a] + d[o + j]·y[o + j] for a = free[j]: the change of variables on the free modes or pixels. */
+/** out[a] = base[j] + d[o + j]·y[o + j] for a = free[j]: the change of variables on the free modes or pixels
+ *  (base holds the stage's start values of the free entries only). */
 function scatterShift(
   out: Float64Array,
   base: Float64Array,
@@ -169,7 +170,7 @@ function scatterShift(
 ): void {
   for (let j = 0; j < free.length; j++) {
     const a = free[j]!;
-    out[a] = base[a]! + d[o + j]! * y[o + j]!;
+    out[a] = base[j]! + d[o + j]! * y[o + j]!;
   }
 }
 
@@ -453,6 +454,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     kernel,
     alpha,
     q,
+    precision,
   });
   const kernelSquared = kernel.map((v) => v * v);
   const psfSquared = createConvolver(pw, ph, kernelSquared, { fft: model.fft });
@@ -556,7 +558,6 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     const trace: FitResult['trace'] = [];
     const seedsPerRound: number[] = [];
     const weight = new Float64Array(m);
-    const phiHat = new Float64Array(n);
     let binned: BinnedPower = { k: [], power: [], mapPower: [], modes: [], information: [] };
 
     const setSpectrum = (taper: number | null): void => {
@@ -567,16 +568,10 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     // The change test of `changeTolerance`: the model image and K ⊛ u at the last check, on the image grid.
     const lastModel = new Float64Array(m);
     const lastCompact = new Float64Array(m);
-    const compactPadded = new Float64Array(n);
     /** RMS change (in σ) of the model image or K ⊛ u over the valid pixels since the last call, which stores the
      *  current ones. The model is that of the last evaluation (in L-BFGS, the accepted point). */
     const changeSinceLastCheck = (): number => {
-      compactPadded.fill(0);
-      for (let y = 0; y < height; y++) {
-        for (let x = 0; x < width; x++)
-          compactPadded[y * pw + x] = Math.exp(model.clipTau(tau[y * width + x]!));
-      }
-      model.convolve(compactPadded, compactPadded);
+      const compactPadded = model.convolvedCompact(tau);
       return rmsChange(model.modelPadded, compactPadded, lastModel, lastCompact, weight, width, height, pw);
     };
 
@@ -608,6 +603,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       const active = blocks.compact ? activeCompactPixels(tau, pedestal, activeRadius, width, height) : null;
       const nCompact = active ? active.length : 0;
       const d = new Float64Array(nDiffuse + nCompact);
+
       if (modes) {
         for (let j = 0; j < nModes; j++) {
           const i = modes[j]!;
@@ -622,9 +618,9 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
           d[nDiffuse + j] = 1 / Math.sqrt(1 + u * u * sumK2 * weight[i]! + q / u);
         }
       }
-      const xi0 = Float64Array.from(xi);
+      const xi0 = modes ? Float64Array.from(modes, (i) => xi[i]!) : new Float64Array(0);
       const mu0 = mu;
-      const tau0 = Float64Array.from(tau);
+      const tau0 = active ? Float64Array.from(active, (i) => tau[i]!) : new Float64Array(0);
       model.fixCompact(tau, active ?? new Int32Array(0));
       const gXi = new Float64Array(n);
       const gTau = new Float64Array(m);
@@ -684,7 +680,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
 
     /** Critical-filter update of (a, γ) from modes up to kMax; ξ re-expressed for the new spectrum. */
     const updateSpectrum = (kMax: number, taperAfter: number | null): void => {
-      model.phiHat(xi, phiHat);
+      const phiHat = model.phiHat(xi, new Float64Array(n));
       model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
       model.curvature(weight);
       let sw = 0;
@@ -720,7 +716,6 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     // Stage 1: diffuse only, tapered spectrum.
     // The early stages only prepare the start of the next one: looser tolerances and shorter budgets.
     const early = Math.max(1, Math.round(maxIterations / 3));
-    model.setPrecision(precision);
     // (not with a user-fixed amplitude: that is per mode of this grid)
     const coarseInput =
       options.coarseStart === false || options.diffuseOnly || options.spectrum?.amplitude != null
@@ -833,8 +828,8 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     const compactSky = Float64Array.from(tau, (t) => Math.exp(model.clipTau(t)));
     const compact = new Float64Array(m);
     for (let i = 0; i < m; i++) compact[i] = modelImage[i]! - diffuse[i]!;
-    // final binned power of the MAP field for the diagnostic plot
-    model.phiHat(xi, phiHat);
+    // final binned power of the MAP field for the diagnostic plot (in sPadded's memory, no longer needed)
+    const phiHat = model.phiHat(xi, sPadded);
     model.curvature(weight);
     let sw = 0;
     for (let y = 0; y < height; y++)
@@ -863,7 +858,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       converged,
       trace,
       seedsPerRound,
-      logDiffusePadded: options.diffuseOnly ? Float64Array.from(model.phi) : null,
+      logDiffusePadded: options.diffuseOnly ? Float64Array.from(model.s, Math.log) : null,
     };
   } finally {
     model.dispose();

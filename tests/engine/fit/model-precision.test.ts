@@ -12,7 +12,13 @@ function lcg(seed: number): () => number {
   };
 }
 
-function makeModel(width: number, height: number, pw: number, ph: number): SeparationModel {
+function makeModel(
+  width: number,
+  height: number,
+  pw: number,
+  ph: number,
+  precision: 'float32' | 'float64' = 'float64',
+): SeparationModel {
   const rand = lcg(7);
   const data = Float64Array.from({ length: width * height }, () => 3 + rand());
   const valid = new Uint8Array(width * height).fill(1);
@@ -28,6 +34,7 @@ function makeModel(width: number, height: number, pw: number, ph: number): Separ
     kernel: psfKernelOnGrid(psfFromFwhm(3, 2, 30), pw, ph),
     alpha: 1.5,
     q: 0.2,
+    precision,
   });
   model.setSpectrum(
     powerLawSpectrum(
@@ -48,22 +55,31 @@ function norm(a: Float64Array): number {
 
 describe('SeparationModel FFT precision', () => {
   it('gives the float64 objective and gradient to float32 accuracy, and float64 again bit for bit', () => {
-    const model = makeModel(48, 40, 64, 64);
+    const models = [
+      makeModel(48, 40, 64, 64),
+      makeModel(48, 40, 64, 64, 'float32'),
+      makeModel(48, 40, 64, 64),
+    ];
     try {
+      expect(models.map((m) => m.precision)).toEqual(['float64', 'float32', 'float64']);
       const rand = lcg(3);
-      const xi = Float64Array.from({ length: model.n }, () => rand() - 0.5);
-      const tau = Float64Array.from({ length: model.m }, () => Math.log(0.1 + 2 * rand()));
+      const xi = Float64Array.from({ length: models[0]!.n }, () => rand() - 0.5);
+      const tau = Float64Array.from({ length: models[0]!.m }, () => Math.log(0.1 + 2 * rand()));
       const mu = Math.log(2.5);
       const blocks = { diffuse: true, compact: true };
-      const run = (): { f: number; gMu: number; gXi: Float64Array; gTau: Float64Array } => {
+      const run = (
+        model: SeparationModel,
+      ): { f: number; gMu: number; gXi: Float64Array; gTau: Float64Array } => {
         const gXi = new Float64Array(model.n);
         const gTau = new Float64Array(model.m);
         const [f, gMu] = model.evaluate(xi, mu, tau, blocks, gXi, gTau);
         return { f, gMu, gXi, gTau };
       };
-      const a = run();
-      expect(model.setPrecision('float32')).toBe('float32');
-      const b = run();
+      const [a, b, c] = models.map(run) as [
+        ReturnType<typeof run>,
+        ReturnType<typeof run>,
+        ReturnType<typeof run>,
+      ];
       // float32 carries ~6e−8 relative per value (IEEE 754 binary32); after a few FFT passes over 4096 values
       // 1e−5 relative is a generous bound, far above which the float32 path would be broken.
       const tolF = 1e-5 * Math.abs(a.f);
@@ -76,20 +92,23 @@ describe('SeparationModel FFT precision', () => {
         const rel = norm(diff) / norm(ga);
         expect(rel, `gradient ${name}: relative L2 difference ${rel}, tolerance 1e-4`).toBeLessThan(1e-4);
       }
-      expect(model.setPrecision('float64')).toBe('float64');
-      const c = run();
+      // deterministic: the same setup in float64 again, bit for bit, and a second evaluation of the same model
+      // (the workspaces it reuses leave nothing behind)
       expect(c.f).toBe(a.f);
       expect(c.gMu).toBe(a.gMu);
       expect(Array.from(c.gXi)).toEqual(Array.from(a.gXi));
+      const again = run(models[1]!);
+      expect(again.f).toBe(b.f);
+      expect(Array.from(again.gXi)).toEqual(Array.from(b.gXi));
     } finally {
-      model.dispose();
+      for (const m of models) m.dispose();
     }
   });
 
   it('stays in float64 on a grid the float32 transform does not take', () => {
-    const model = makeModel(20, 14, 30, 24);
+    const model = makeModel(20, 14, 30, 24, 'float32');
     try {
-      expect(model.setPrecision('float32')).toBe('float64');
+      expect(model.precision).toBe('float64');
     } finally {
       model.dispose();
     }

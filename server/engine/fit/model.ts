@@ -35,6 +35,7 @@ import {
   supportsFloat32,
 } from '../fft';
 import { expArray, shiftExpAdd } from '../math/exp-array';
+import type { ModeGrid } from './spectrum';
 
 export interface NoiseModel {
   kind: 'gaussian' | 'poisson';
@@ -80,11 +81,12 @@ export class SeparationModel {
   readonly n: number;
   /** image pixel count */
   readonly m: number;
-  readonly setup: ModelSetup;
-  /** A_k = √P_k on the padded grid (set by setSpectrum). */
-  readonly amplitude: Float64Array;
-  /** |K_k|² of every Hartley mode (equal for ±k). */
-  readonly transferPower: Float64Array;
+  /** The setup without its kernel (the transforms hold the kernel's spectrum; the padded array is not kept). */
+  readonly setup: Omit<ModelSetup, 'kernel'>;
+  /** A_k = √P_k on the padded grid (set by setSpectrum; float32, spectrum.ts ModeGrid). */
+  readonly amplitude: Float32Array;
+  /** |K_k|² of every Hartley mode (equal for ±k), float32. */
+  readonly transferPower: Float32Array;
   tauMin: number;
   tauMax: number;
   /** Poisson floor ε. */
@@ -114,21 +116,22 @@ export class SeparationModel {
   private readonly work: Float64Array;
 
   constructor(setup: ModelSetup) {
-    this.setup = setup;
+    const { kernel, ...rest } = setup;
+    this.setup = rest;
     this.width = setup.width;
     this.height = setup.height;
     this.pw = setup.paddedWidth;
     this.ph = setup.paddedHeight;
     this.n = this.pw * this.ph;
     this.m = this.width * this.height;
-    // |K|² in float64 on a transform of its own (released at once), before the fit's arrays exist.
-    this.transferPower = kernelTransferPower(setup.kernel, this.pw, this.ph);
+    // |K|² computed in float64 on a transform of its own (released at once), before the fit's arrays exist.
+    this.transferPower = kernelTransferPower(kernel, this.pw, this.ph);
     this.precision =
       setup.precision === 'float32' && supportsFloat32(this.pw, this.ph) ? 'float32' : 'float64';
     this.fft = createRealFft2d(this.pw, this.ph, { precision: this.precision });
-    this.convolver = createConvolver(this.pw, this.ph, setup.kernel, { fft: this.fft });
+    this.convolver = createConvolver(this.pw, this.ph, kernel, { fft: this.fft });
     this.hartley = createHartley2d(this.pw, this.ph, { fft: this.fft });
-    this.amplitude = new Float64Array(this.n);
+    this.amplitude = new Float32Array(this.n);
     this.uPadded = new Float64Array(this.n);
     this.s = new Float64Array(this.n);
     this.modelPadded = new Float64Array(this.n);
@@ -154,7 +157,7 @@ export class SeparationModel {
     this.fft.dispose();
   }
 
-  setSpectrum(power: Float64Array): void {
+  setSpectrum(power: ModeGrid): void {
     for (let i = 0; i < this.n; i++) this.amplitude[i] = Math.sqrt(power[i]!);
   }
 
@@ -218,6 +221,11 @@ export class SeparationModel {
     }
     this.convolver.apply(work, work);
     return work;
+  }
+
+  /** The PSF convolution of the objective (K ⊛ and Kᵀ ⋆ on the padded grid), for the fit's other passes. */
+  get psf(): Convolver {
+    return this.convolver;
   }
 
   /** K ⊛ v for a padded-grid field (out may equal v). */
@@ -445,7 +453,7 @@ function compactGradientAt(
 // the long evaluate method); the arithmetic and its order are those of the plain loops.
 
 /** out = A ⊙ ξ; returns Σ ½ ξ². */
-function phiHatAndHalfSquares(amplitude: Float64Array, xi: Float64Array, out: Float64Array): number {
+function phiHatAndHalfSquares(amplitude: Float32Array, xi: Float64Array, out: Float64Array): number {
   let acc = 0;
   for (let i = 0; i < xi.length; i++) {
     const v = xi[i]!;
@@ -467,7 +475,7 @@ function productInto(a: Float64Array, b: Float64Array, out: Float64Array): numbe
 }
 
 /** g = A ⊙ g + ξ. */
-function amplitudeGradient(amplitude: Float64Array, g: Float64Array, xi: Float64Array): void {
+function amplitudeGradient(amplitude: Float32Array, g: Float64Array, xi: Float64Array): void {
   for (let i = 0; i < g.length; i++) g[i] = amplitude[i]! * g[i]! + xi[i]!;
 }
 
@@ -477,13 +485,14 @@ function zeroOutsideImage(a: Float64Array, width: number, height: number, pw: nu
   a.fill(0, height * pw);
 }
 
-/** |K_k|² for every Hartley mode of the padded grid, from the real FFT of the kernel (Hermitian mirror). */
+/** |K_k|² for every Hartley mode of the padded grid, from the real FFT of the kernel (Hermitian mirror); stored in
+ *  float32 (spectrum.ts ModeGrid). */
 export function kernelTransferPower(
   kernel: Float64Array,
   pw: number,
   ph: number,
   shared?: RealFft2d,
-): Float64Array {
+): Float32Array {
   const fft = shared ?? createRealFft2d(pw, ph);
   const sw = fft.spectrumWidth;
   const re = new Float64Array(sw * ph);
@@ -493,7 +502,7 @@ export function kernelTransferPower(
   } finally {
     if (shared === undefined) fft.dispose();
   }
-  const out = new Float64Array(pw * ph);
+  const out = new Float32Array(pw * ph);
   for (let ky = 0; ky < ph; ky++) {
     for (let kx = 0; kx < pw; kx++) {
       const sx = kx < sw ? kx : pw - kx;

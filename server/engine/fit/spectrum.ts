@@ -45,9 +45,13 @@ export interface BinnedPower {
   information: number[];
 }
 
-/** |k| of every mode of a width × height grid (row-major, cycles per pixel, both signs folded). */
-export function modeWavenumbers(width: number, height: number): Float64Array {
-  const k = new Float64Array(width * height);
+/** A per-mode grid stored in float32 (wavenumbers, spectra, PSF transfer: factors of the objective, not its
+ *  state; half the memory of float64) or float64. */
+export type ModeGrid = Float32Array | Float64Array;
+
+/** |k| of every mode of a width × height grid (row-major, cycles per pixel, both signs folded), in float32. */
+export function modeWavenumbers(width: number, height: number): Float32Array {
+  const k = new Float32Array(width * height);
   for (let y = 0; y < height; y++) {
     const fy = Math.min(y, height - y) / height;
     for (let x = 0; x < width; x++) {
@@ -59,12 +63,12 @@ export function modeWavenumbers(width: number, height: number): Float64Array {
 }
 
 /** Writes P_k (optionally tapered above kc) into `out`; mode 0 gets 0. */
-export function powerLawSpectrum(
-  k: Float64Array,
+export function powerLawSpectrum<T extends ModeGrid>(
+  k: ModeGrid,
   p: SpectrumParameters,
   taperK: number | null,
-  out: Float64Array,
-): Float64Array {
+  out: T,
+): T {
   const k02 = p.turnover * p.turnover;
   for (let i = 0; i < k.length; i++) {
     const ki = k[i]!;
@@ -81,10 +85,10 @@ export function powerLawSpectrum(
  * in logarithmic bins from the lowest non-zero k to `kMax`.
  */
 export function binnedPower(
-  k: Float64Array,
+  k: ModeGrid,
   phiHat: Float64Array,
-  prior: Float64Array,
-  transferPower: Float64Array,
+  prior: ModeGrid,
+  transferPower: ModeGrid,
   kappa: number,
   kMax: number,
   binsPerOctave = 3,

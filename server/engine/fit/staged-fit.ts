@@ -32,7 +32,7 @@
  * one (`activeRadius`); the others keep their values (SeparationModel.fixCompact).
  * Deterministic: no randomness anywhere; the same input and settings give the same numbers.
  */
-import { createConvolver, goodFftSize } from '../fft';
+import { createConvolver, goodFftSize, type Convolver } from '../fft';
 import { minimiseLbfgs } from '../optimise/lbfgs';
 import { psfFwhmPx, psfKernelOnGrid, type Psf } from '../psf';
 import { SeparationModel, type StageBlocks } from './model';
@@ -41,6 +41,7 @@ import {
   binnedPower,
   fitPowerLaw,
   modeWavenumbers,
+  type ModeGrid,
   powerLawSpectrum,
   type BinnedPower,
   type SpectrumParameters,
@@ -234,8 +235,8 @@ function dilateLine(
 
 /** Indices of the modes with P_k |K_k|² κ ≥ floor, in increasing order. */
 export function freeModes(
-  power: Float64Array,
-  transferPower: Float64Array,
+  power: ModeGrid,
+  transferPower: ModeGrid,
   kappa: number,
   floor: number,
 ): Int32Array {
@@ -254,8 +255,8 @@ export function freeModes(
 function rmsChange(
   modelPadded: Float64Array,
   compactPadded: Float64Array,
-  lastModel: Float64Array,
-  lastCompact: Float64Array,
+  lastModel: Float32Array,
+  lastCompact: Float32Array,
   weight: Float64Array,
   width: number,
   height: number,
@@ -345,7 +346,7 @@ function upsampledStart(
     pw: number;
     ph: number;
     hartley: (input: Float64Array, output: Float64Array) => void;
-    amplitude: Float64Array;
+    amplitude: ModeGrid;
     floor: number;
   },
 ): number {
@@ -413,7 +414,8 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
   const fwhm = psfFwhmPx(psf);
   const pw = paddedSize(width, fwhm.major);
   const ph = paddedSize(height, fwhm.major);
-  const kernel = psfKernelOnGrid(psf, pw, ph);
+  // The padded kernel is handed to the model and not kept here (the model's transforms hold its spectrum).
+  let kernel: Float64Array | null = psfKernelOnGrid(psf, pw, ph);
   let sumK2 = 0;
   for (const v of kernel) sumK2 += v * v;
 
@@ -456,16 +458,20 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     q,
     precision,
   });
-  const kernelSquared = kernel.map((v) => v * v);
-  const psfSquared = createConvolver(pw, ph, kernelSquared, { fft: model.fft });
-  const psfConvolver = createConvolver(pw, ph, kernel, { fft: model.fft });
+  kernel = null;
+  /** K² ⊛ for the matched filter of a seeding round, built for the round and disposed after it. */
+  const psfSquaredConvolver = (): Convolver => {
+    const squared = psfKernelOnGrid(psf, pw, ph);
+    for (let i = 0; i < squared.length; i++) squared[i] = squared[i]! * squared[i]!;
+    return createConvolver(pw, ph, squared, { fft: model.fft });
+  };
   const n = model.n;
   const k = modeWavenumbers(pw, ph);
   const kc = 1 / (3 * fwhm.major);
   const activeRadius = options.activeRadius ?? Math.ceil(1.5 * fwhm.major);
   const modeFloor = options.modeFloor ?? 1e-3;
   const turnover = 1 / Math.max(pw, ph);
-  const power = new Float64Array(n);
+  const power = new Float32Array(n);
 
   try {
     // Data-driven start: μ from the median level above the pedestal; the spectrum amplitude from the variance of
@@ -566,8 +572,9 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     };
 
     // The change test of `changeTolerance`: the model image and K ⊛ u at the last check, on the image grid.
-    const lastModel = new Float64Array(m);
-    const lastCompact = new Float64Array(m);
+    // (float32: the test resolves 0.01 σ on values of tens of σ, far above float32 rounding)
+    const lastModel = new Float32Array(m);
+    const lastCompact = new Float32Array(m);
     /** RMS change (in σ) of the model image or K ⊛ u over the valid pixels since the last call, which stores the
      *  current ones. The model is that of the last evaluation (in L-BFGS, the accepted point). */
     const changeSinceLastCheck = (): number => {
@@ -784,17 +791,23 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
           residual[i] = valid[i] ? data[i]! - model.modelPadded[y * pw + x]! : 0;
         }
       }
-      const seeds = matchedFilterSeeds({
-        width,
-        height,
-        pw,
-        ph,
-        residual,
-        weight,
-        psf: psfConvolver,
-        psfSquared,
-        snr: seedSnr,
-      });
+      const psfSquared = psfSquaredConvolver();
+      let seeds: ReturnType<typeof matchedFilterSeeds>;
+      try {
+        seeds = matchedFilterSeeds({
+          width,
+          height,
+          pw,
+          ph,
+          residual,
+          weight,
+          psf: model.psf,
+          psfSquared,
+          snr: seedSnr,
+        });
+      } finally {
+        psfSquared.dispose();
+      }
       seedsPerRound.push(seeds.length);
       for (const seed of seeds) {
         const u = Math.exp(model.clipTau(tau[seed.index]!));
@@ -862,7 +875,5 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     };
   } finally {
     model.dispose();
-    psfSquared.dispose();
-    psfConvolver.dispose();
   }
 }

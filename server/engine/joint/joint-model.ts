@@ -59,7 +59,7 @@ export interface JointBlocks {
 
 interface ImageWork {
   convolver: Convolver;
-  transferPower: Float64Array;
+  transferPower: Float32Array;
   floor: number;
   /** the image's prediction of the last evaluation */
   model: Float64Array;

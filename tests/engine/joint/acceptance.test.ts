@@ -1,16 +1,21 @@
 // @vitest-environment node
 /**
- * Acceptance of the joint fit (the joint-separation issue) on a synthetic pair with known truth from
+ * Acceptance of the joint fit (the joint-separation issue) on synthetic pairs with known truth from
  * samples/joint-pair.ts: one sky observed as (a) a sharp 128² image, beam 3 px, σ = 1 Jy/beam, and (b) a smooth
  * 64² image at twice the pixel size, beam three times wider (9 fine px), σ = 0.5 Jy/beam, with a 7% flux-scale
  * error. Each image is also separated alone (server/engine/separate.ts) for comparison.
- * Checked: the scale factor within its error bar; the diffuse error below both single fits' (on the fine grid and
- * on the coarse one); completeness per SNR bin at least the sharp image's; flux errors on the sources both
- * catalogues found within 10% of the sharp image's (see README: the joint fluxes are not better, because the
- * smooth image fixes the total of the compact pixels exactly while the sharp one inflates it a little); a point
- * source's summed flux the same in both predicted images to 0.1%.
- * Measured on seeds 1–4 of this pair (default settings): scale pulls −2.15, +0.07, −1.15, +0.6 σ; this
- * test runs seed 2.
+ * Checked on seed 2: the scale factor within its error bar; the diffuse error below both single fits' (on the fine
+ * grid and on the coarse one); a point source's summed flux the same in both predicted images to 0.1%.
+ * Checked on seeds 1–4 pooled (the sharp image alone and the joint fit of each; ~50 sources found by both, so the
+ * statistic is not decided by a handful): completeness per SNR bin at least the sharp image's, and the flux RMS on
+ * the sources both catalogues found within 10% of the sharp image's. The issue asks for "at least as good"; the
+ * joint fluxes are not better (README, "Known limits": pooled over 16 seeds the joint's RMS is ~2% above the sharp
+ * image's, a difference within its statistical error; the joint diffuse field dips under a source by about a
+ * quarter of the sharp image's noise there, which the catalogue's refit on the sharp image then counts again).
+ * The pooled statistic moves by a few per cent when the fit's arithmetic changes (2.2% and 4.2% on two states
+ * of the FFT layer), hence the 10% bound; the log prints the paired difference of the squared errors with its
+ * standard error.
+ * Measured on seeds 1–4 of this pair (default settings): scale pulls −2.15, +0.07, −1.15, +0.6 σ.
  */
 import { beforeAll, describe, expect, it } from 'vitest';
 import { simulateJointPair, type JointPair } from '../../../samples/joint-pair';
@@ -28,11 +33,16 @@ import { parseWcs } from '../../../server/engine/wcs/wcs';
 
 const N = 128;
 const C = N / 2;
+/** The seeds whose catalogues are pooled; SEED also gets the smooth image alone and the other checks. */
+const SEEDS = [1, 2, 3, 4];
+const SEED = 2;
 let pair: JointPair;
 let sharp: SeparationResult;
 let smooth: SeparationResult;
 let joint: JointSeparationResult;
 let sigmaS = 0;
+/** Per pooled seed: the pair and both catalogues. */
+const pooled: { seed: number; pair: JointPair; sharp: CatalogueSource[]; joint: CatalogueSource[] }[] = [];
 
 const asInput = (im: JointPair['sharp'], name: string) => ({
   name,
@@ -45,20 +55,31 @@ const asInput = (im: JointPair['sharp'], name: string) => ({
   unit: 'Jy/beam',
 });
 
-beforeAll(async () => {
-  pair = simulateJointPair({
+const simulate = (seed: number): JointPair =>
+  simulateJointPair({
     size: N,
-    seed: 2,
+    seed,
     sharp: { fwhmPx: 3, sigma: 1 },
     smooth: { fwhmFinePx: 9, sigma: 0.5, scaleError: 1.07 },
     diffuse: { level: 5, logStd: 0.7, slope: 4 },
     sources: { count: 30, minFlux: 1.5, maxFlux: 60, minSeparationPx: 4 },
   });
-  sharp = await separate(asInput(pair.sharp, 'sharp'), {});
-  smooth = await separate(asInput(pair.smooth, 'smooth'), {});
-  joint = await separateJoint([asInput(pair.sharp, 'sharp'), asInput(pair.smooth, 'smooth')], {});
+
+beforeAll(async () => {
+  for (const seed of SEEDS) {
+    const p = simulate(seed);
+    const a = await separate(asInput(p.sharp, 'sharp'), {});
+    const j = await separateJoint([asInput(p.sharp, 'sharp'), asInput(p.smooth, 'smooth')], {});
+    pooled.push({ seed, pair: p, sharp: a.catalogue, joint: j.catalogue });
+    if (seed === SEED) {
+      pair = p;
+      sharp = a;
+      joint = j;
+      smooth = await separate(asInput(p.smooth, 'smooth'), {});
+    }
+  }
   sigmaS = isolatedFluxError(pair.sharp.psf, 1) / pair.sharp.beamAreaPx;
-}, 120_000);
+}, 300_000);
 
 /** Relative RMS error of a diffuse sky (Jy per fine pixel) on the fine grid and block-summed to the coarse one. */
 function diffuseErrors(estimate: Float64Array): { fine: number; coarse: number } {
@@ -78,33 +99,34 @@ function diffuseErrors(estimate: Float64Array): { fine: number; coarse: number }
 
 interface Matched {
   snr: number;
-  key: number;
+  key: string;
   error: number | null;
+  pull: number | null;
 }
 
 /** Greedy one-to-one matching, brightest truth first, within 1.5 fine pixels (0.75 coarse). */
-function match(catalogue: CatalogueSource[], pixelFactor: number): Matched[] {
+function match(truth: JointPair['truth'], catalogue: CatalogueSource[], seed: number): Matched[] {
   const used = new Set<number>();
-  return [...pair.truth.sources]
+  return [...truth.sources]
     .sort((p, q) => q.flux - p.flux)
     .map((t) => {
-      const tx = (t.x + 0.5) / pixelFactor - 0.5;
-      const ty = (t.y + 0.5) / pixelFactor - 0.5;
       let best = -1;
-      let bestD = (1.5 / pixelFactor) ** 2;
+      let bestD = 1.5 ** 2;
       catalogue.forEach((c, k) => {
         if (used.has(k)) return;
-        const d = (c.x - 1 - tx) ** 2 + (c.y - 1 - ty) ** 2;
+        const d = (c.x - 1 - t.x) ** 2 + (c.y - 1 - t.y) ** 2;
         if (d < bestD) {
           bestD = d;
           best = k;
         }
       });
       if (best >= 0) used.add(best);
+      const c = best >= 0 ? catalogue[best]! : null;
       return {
         snr: t.flux / sigmaS,
-        key: t.x,
-        error: best >= 0 ? (catalogue[best]!.fluxDensity! - t.flux) / sigmaS : null,
+        key: `${seed}:${t.x}`,
+        error: c ? (c.fluxDensity! - t.flux) / sigmaS : null,
+        pull: c ? (c.fluxDensity! - t.flux) / c.fluxDensityErr! : null,
       };
     });
 }
@@ -146,9 +168,9 @@ describe('joint fit of a sharp and a smooth image of one sky', () => {
     }
   });
 
-  it('finds at least as many sources per SNR bin as the sharp image alone, with comparable flux errors', () => {
-    const a = match(sharp.catalogue, 1);
-    const j = match(joint.catalogue, 1);
+  it('finds at least as many sources per SNR bin as the sharp image alone, with comparable flux errors (seeds 1–4 pooled)', () => {
+    const a = pooled.flatMap((p) => match(p.pair.truth, p.sharp, p.seed));
+    const j = pooled.flatMap((p) => match(p.pair.truth, p.joint, p.seed));
     const bins: [number, number][] = [
       [3, 5],
       [5, 7],
@@ -160,23 +182,54 @@ describe('joint fit of a sharp and a smooth image of one sky', () => {
       const total = a.filter((x) => x.snr >= lo && x.snr < hi).length;
       return { bin: `${lo}-${hi}`, total, sharp: count(a), joint: count(j) };
     });
-    const both = a.filter((x) => x.error !== null && j.find((y) => y.key === x.key)?.error != null);
-    const rms = (m: Matched[]) =>
-      Math.sqrt(
-        both.reduce((s, x) => s + m.find((y) => y.key === x.key)!.error! ** 2, 0) / Math.max(1, both.length),
-      );
+    const jointByKey = new Map(j.map((x) => [x.key, x]));
+    const both = a.filter((x) => x.error !== null && jointByKey.get(x.key)?.error != null);
+    const errors = (m: 'sharp' | 'joint') =>
+      both.map((x) => (m === 'sharp' ? x : jointByKey.get(x.key)!).error!);
+    const pulls = (m: 'sharp' | 'joint') =>
+      both.map((x) => (m === 'sharp' ? x : jointByKey.get(x.key)!).pull!);
+    const rms = (v: number[]) => Math.sqrt(v.reduce((s, e) => s + e * e, 0) / Math.max(1, v.length));
+    // paired difference of the squared errors (the noise is the same in both, so this is far less noisy than
+    // either RMS): mean and its standard error
+    const diff = both.map((_, k) => errors('joint')[k]! ** 2 - errors('sharp')[k]! ** 2);
+    const meanDiff = diff.reduce((s, v) => s + v, 0) / Math.max(1, diff.length);
+    const seDiff = Math.sqrt(
+      diff.reduce((s, v) => s + (v - meanDiff) ** 2, 0) / Math.max(1, diff.length) ** 2,
+    );
     console.log(
-      'completeness',
+      'completeness (seeds',
+      SEEDS.join(','),
+      ')',
       JSON.stringify(summary),
       'flux RMS/σ_S on',
       both.length,
-      'sources:',
-      rms(a),
-      rms(j),
+      'sources: sharp',
+      rms(errors('sharp')),
+      'joint',
+      rms(errors('joint')),
+      'Δ mean square',
+      meanDiff,
+      '±',
+      seDiff,
+      'pull RMS sharp',
+      rms(pulls('sharp')),
+      'joint',
+      rms(pulls('joint')),
     );
+    for (const p of pooled) {
+      const sa = match(p.pair.truth, p.sharp, p.seed);
+      const sj = new Map(match(p.pair.truth, p.joint, p.seed).map((x) => [x.key, x]));
+      const b = sa.filter((x) => x.error !== null && sj.get(x.key)?.error != null);
+      console.log(
+        `seed ${p.seed}: ${b.length} sources, flux RMS/σ_S sharp`,
+        rms(b.map((x) => x.error!)),
+        'joint',
+        rms(b.map((x) => sj.get(x.key)!.error!)),
+      );
+    }
     for (const b of summary) expect(b.joint).toBeGreaterThanOrEqual(b.sharp);
-    expect(both.length).toBeGreaterThanOrEqual(8);
-    expect(rms(j)).toBeLessThan(1.1 * rms(a));
+    expect(both.length).toBeGreaterThanOrEqual(40);
+    expect(rms(errors('joint'))).toBeLessThan(1.1 * rms(errors('sharp')));
     expect(joint.refinement).toBe('reference-image');
   });
 

@@ -17,7 +17,7 @@ export function checkFftSize(width: number, height: number): void {
 }
 
 /** Throws unless `array` has exactly `length` elements; `what` names the argument in the message. */
-export function checkLength(array: Float64Array, length: number, what: string): void {
+export function checkLength(array: { length: number }, length: number, what: string): void {
   if (array.length !== length) {
     throw new RangeError(`${what} must have ${length} elements, got ${array.length}`);
   }

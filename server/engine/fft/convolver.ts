@@ -12,7 +12,7 @@
 import { checkLength } from './check-size';
 import { transformFor } from './real-fft-2d';
 import { scratchSpectrum } from './shared-buffers';
-import type { FusedKernel, RealFft2d, TransformOptions } from './types';
+import type { FusedKernel, RealArray, RealFft2d, TransformOptions } from './types';
 
 export interface Convolver {
   readonly width: number;
@@ -23,9 +23,9 @@ export interface Convolver {
    * the mean of x for the float32 transforms to take out before rounding (types.ts FusedTransforms.convolve;
    * computed when omitted, 0 for data without a pedestal); other backends ignore it.
    */
-  apply(x: Float64Array, out: Float64Array, shift?: number): void;
+  apply(x: RealArray, out: RealArray, shift?: number): void;
   /** out = kernel ⋆ x, the adjoint of apply. `x` and `out` may be the same array; `shift` as for apply. */
-  adjoint(x: Float64Array, out: Float64Array, shift?: number): void;
+  adjoint(x: RealArray, out: RealArray, shift?: number): void;
   dispose(): void;
 }
 
@@ -85,14 +85,14 @@ class FftConvolver implements Convolver {
     this.kernelIm = symmetric ? null : this.im.slice();
   }
 
-  apply(x: Float64Array, out: Float64Array, shift?: number): void {
+  apply(x: RealArray, out: RealArray, shift?: number): void {
     if (this.fused) this.fft.fused!.convolve(x, out, this.fused.apply, shift);
-    else this.run(x, out, 1);
+    else this.run(asFloat64(x), asFloat64(out), 1);
   }
 
-  adjoint(x: Float64Array, out: Float64Array, shift?: number): void {
+  adjoint(x: RealArray, out: RealArray, shift?: number): void {
     if (this.fused) this.fft.fused!.convolve(x, out, this.fused.adjoint ?? this.fused.apply, shift);
-    else this.run(x, out, -1);
+    else this.run(asFloat64(x), asFloat64(out), -1);
   }
 
   private run(x: Float64Array, out: Float64Array, conjugate: 1 | -1): void {
@@ -121,6 +121,12 @@ class FftConvolver implements Convolver {
     this.fused?.adjoint?.dispose();
     if (this.ownsFft) this.fft.dispose();
   }
+}
+
+/** The transforms without fused paths take float64 grids only. */
+function asFloat64(a: RealArray): Float64Array {
+  if (!(a instanceof Float64Array)) throw new TypeError('this transform convolves float64 grids only');
+  return a;
 }
 
 /** k(−x, −y) on the periodic grid: its spectrum is conj K, so convolving with it is the adjoint. */

@@ -9,7 +9,7 @@
 import { checkLength } from './check-size';
 import { transformFor } from './real-fft-2d';
 import { scratchSpectrum } from './shared-buffers';
-import type { RealFft2d, TransformOptions } from './types';
+import type { RealArray, RealFft2d, TransformOptions } from './types';
 
 export interface Hartley2d {
   readonly width: number;
@@ -17,7 +17,7 @@ export interface Hartley2d {
   readonly implementation: string;
   /** output = H(input); both width·height row-major; they must be different arrays. `shift`: as for
    *  Convolver.apply (float32 fused path only). */
-  transform(input: Float64Array, output: Float64Array, shift?: number): void;
+  transform(input: RealArray, output: RealArray, shift?: number): void;
   dispose(): void;
 }
 
@@ -40,7 +40,7 @@ class Hartley2dFromFft implements Hartley2d {
     this.implementation = fft.implementation;
   }
 
-  transform(input: Float64Array, output: Float64Array, shift?: number): void {
+  transform(input: RealArray, output: RealArray, shift?: number): void {
     const { width, height } = this;
     const spectrumWidth = this.fft.spectrumWidth;
     checkLength(input, width * height, 'Hartley input');
@@ -49,6 +49,9 @@ class Hartley2dFromFft implements Hartley2d {
     if (this.fft.fused) {
       this.fft.fused.hartley(input, output, shift);
       return;
+    }
+    if (!(input instanceof Float64Array) || !(output instanceof Float64Array)) {
+      throw new TypeError('this Hartley transform takes float64 grids only');
     }
     // the shared scratch spectrum, fetched here so that a transform with fused paths never allocates it
     const { re, im } = scratchSpectrum(this.fft);

@@ -20,4 +20,4 @@ export { MAX_FFT_PIXELS } from './check-size';
 export { supportsFloat32 } from './real-fft-2d-float32';
 export { createHartley2d, type Hartley2d } from './hartley-2d';
 export { createConvolver, kernelFromCentredStamp, type Convolver } from './convolver';
-export type { RealFft2d, RealFft2dOptions, TransformOptions, FftPrecision } from './types';
+export type { RealArray, RealFft2d, RealFft2dOptions, TransformOptions, FftPrecision } from './types';

@@ -17,6 +17,7 @@
  * F(0, 0) (forward) or as a constant (inverse), so a bright pedestal does not set the rounding level.
  */
 import { PFFFT_BACKWARD, PFFFT_COMPLEX, PFFFT_FORWARD, PFFFT_REAL, pffft } from './pffft-module';
+import type { RealArray } from './types';
 
 const COLUMN_BLOCK = 16;
 const ROW_BLOCK = 16;
@@ -73,20 +74,13 @@ export class PffftCore {
   }
 
   /** Rows [y0, y1) of `input` (width·height, row-major) minus `shift` → ordered row spectra in `rows`. */
-  forwardRows(input: Float64Array, rows: Float32Array, y0: number, y1: number, shift: number): void {
+  forwardRows(input: RealArray, rows: Float32Array, y0: number, y1: number, shift: number): void {
     subtractInto(input, rows, y0 * this.width, y1 * this.width, shift);
     this.rowTransforms(rows, y0, y1, PFFFT_FORWARD);
   }
 
   /** Ordered row spectra [y0, y1) → unnormalised image rows, then output = value × scale + shift. */
-  inverseRows(
-    rows: Float32Array,
-    output: Float64Array,
-    y0: number,
-    y1: number,
-    scale: number,
-    shift: number,
-  ) {
+  inverseRows(rows: Float32Array, output: RealArray, y0: number, y1: number, scale: number, shift: number) {
     this.rowTransforms(rows, y0, y1, PFFFT_BACKWARD);
     scaleInto(rows, output, y0 * this.width, y1 * this.width, scale, shift);
   }
@@ -208,7 +202,7 @@ export class PffftCore {
    */
   hartleyColumns(
     rows: Float32Array,
-    output: Float64Array,
+    output: RealArray,
     scale: number,
     dc: number,
     c0: number,
@@ -252,19 +246,14 @@ export class PffftCore {
   }
 }
 
-function subtractInto(
-  input: Float64Array,
-  rows: Float32Array,
-  start: number,
-  end: number,
-  shift: number,
-): void {
-  for (let i = start; i < end; i++) rows[i] = input[i]! - shift;
+function subtractInto(input: RealArray, rows: Float32Array, start: number, end: number, shift: number): void {
+  if (shift === 0 && input instanceof Float32Array) rows.set(input.subarray(start, end), start);
+  else for (let i = start; i < end; i++) rows[i] = input[i]! - shift;
 }
 
 function scaleInto(
   rows: Float32Array,
-  output: Float64Array,
+  output: RealArray,
   start: number,
   end: number,
   scale: number,
@@ -341,7 +330,7 @@ function scatterColumns(
 /** Hartley values of columns [c, c + count) from their ordered column spectra (PffftCore.hartleyColumns). */
 function hartleyFromColumns(
   stage: Float32Array,
-  output: Float64Array,
+  output: RealArray,
   width: number,
   height: number,
   spectrumWidth: number,

@@ -17,7 +17,7 @@ import { PffftCore } from './pffft-core';
 import { pffftComplexLength, pffftRealLength } from './pffft-module';
 import { copyColumns, sharedFloat64, THREADS_MIN_PIXELS } from './shared-buffers';
 import { pffft } from './pffft-module';
-import type { FusedKernel, FusedTransforms, RealFft2d } from './types';
+import type { FusedKernel, FusedTransforms, RealArray, RealFft2d } from './types';
 
 export class RealFft2dFloat32 implements RealFft2d {
   readonly spectrumWidth: number;
@@ -150,7 +150,7 @@ class PffftFused implements FusedTransforms {
     this.height = core.height;
   }
 
-  hartley(input: Float64Array, output: Float64Array, shift = mean(input)): void {
+  hartley(input: RealArray, output: RealArray, shift = mean(input)): void {
     const { width, height, core, rows } = this;
     checkLength(input, width * height, 'Hartley input');
     checkLength(output, width * height, 'Hartley output');
@@ -168,7 +168,7 @@ class PffftFused implements FusedTransforms {
     return spectrum;
   }
 
-  convolve(x: Float64Array, out: Float64Array, kernel: FusedKernel, shift = mean(x)): void {
+  convolve(x: RealArray, out: RealArray, kernel: FusedKernel, shift = mean(x)): void {
     const { width, height, core, rows } = this;
     checkLength(x, width * height, 'convolution input');
     checkLength(out, width * height, 'convolution output');
@@ -225,7 +225,7 @@ export function checkFloat32Size(width: number, height: number): void {
 }
 
 /** Mean of the values (0 when it is not finite), the shift taken out before rounding to float32. */
-export function mean(values: Float64Array): number {
+export function mean(values: RealArray): number {
   let sum = 0;
   for (let i = 0; i < values.length; i++) sum += values[i]!;
   const m = sum / values.length;

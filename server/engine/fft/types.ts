@@ -7,6 +7,9 @@
  * convention of NumPy/SciPy). The other half follows from Hermitian symmetry F(−k) = conj F(k).
  * `inverse` is normalised (divides by width·height), so inverse(forward(f)) = f.
  */
+/** A real grid in float64 or float32 (the fused float32 paths read and write both). */
+export type RealArray = Float64Array | Float32Array;
+
 export interface RealFft2d {
   readonly width: number;
   readonly height: number;
@@ -52,7 +55,7 @@ export interface FusedKernel {
 export interface FusedTransforms {
   /** output = the orthonormal 2-D Hartley transform of input (hartley-2d.ts); different arrays. `shift`: see
    *  convolve. */
-  hartley(input: Float64Array, output: Float64Array, shift?: number): void;
+  hartley(input: RealArray, output: RealArray, shift?: number): void;
   /** The spectrum of a kernel (width·height, centred at (0, 0)) for convolve. */
   kernel(kernel: Float64Array): FusedKernel;
   /**
@@ -60,7 +63,7 @@ export interface FusedTransforms {
    * float32 and put back exactly: the mean of x when omitted (one more pass over x); a caller that knows x has
    * no pedestal passes 0, one that has just computed the mean passes it.
    */
-  convolve(x: Float64Array, out: Float64Array, kernel: FusedKernel, shift?: number): void;
+  convolve(x: RealArray, out: RealArray, kernel: FusedKernel, shift?: number): void;
 }
 
 export type FftPrecision = 'float64' | 'float32';

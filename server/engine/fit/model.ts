@@ -31,6 +31,7 @@ import {
   type Convolver,
   type Hartley2d,
   type FftPrecision,
+  type RealArray,
   type RealFft2d,
   supportsFloat32,
 } from '../fft';
@@ -102,18 +103,18 @@ export class SeparationModel {
   private readonly hartley: Hartley2d;
   /** u = exp(clip τ) on the padded grid (0 in the padding): of the last evaluation at the free pixels, of the
    *  last fixCompact call at the others. */
-  private readonly uPadded: Float64Array;
+  private readonly uPadded: RealArray;
   /** Free compact pixels (image-grid indices) after fixCompact; null = every pixel is recomputed. */
   private active: Int32Array | null = null;
   /** Σ (α τ + q e^(−τ)) over the pixels fixCompact held fixed. */
   private priorFixed = 0;
   // Padded-grid workspaces: four arrays in all (with uPadded), each reused through the evaluation (evaluate).
   /** s = exp φ of the last evaluation (φ itself is log s: the exponent is clamped to |φ| ≤ 700). */
-  readonly s: Float64Array;
+  readonly s: RealArray;
   /** K ⊛ (s + u) of the last evaluation. */
-  readonly modelPadded: Float64Array;
+  readonly modelPadded: RealArray;
   /** φ̂, then ∂L/∂m, Kᵀ ⋆ ∂L/∂m and its product with s, in turn. */
-  private readonly work: Float64Array;
+  private readonly work: RealArray;
 
   constructor(setup: ModelSetup) {
     const { kernel, ...rest } = setup;
@@ -132,10 +133,13 @@ export class SeparationModel {
     this.convolver = createConvolver(this.pw, this.ph, kernel, { fft: this.fft });
     this.hartley = createHartley2d(this.pw, this.ph, { fft: this.fft });
     this.amplitude = new Float32Array(this.n);
-    this.uPadded = new Float64Array(this.n);
-    this.s = new Float64Array(this.n);
-    this.modelPadded = new Float64Array(this.n);
-    this.work = new Float64Array(this.n);
+    // float32 workspaces with the float32 transforms (their fused paths read and write them directly, and the
+    // transforms round to float32 anyway): half the memory, and no conversion passes.
+    const Grid = this.precision === 'float32' ? Float32Array : Float64Array;
+    this.uPadded = new Grid(this.n);
+    this.s = new Grid(this.n);
+    this.modelPadded = new Grid(this.n);
+    this.work = new Grid(this.n);
     let maxAbs = 0;
     let sum = 0;
     let count = 0;
@@ -162,18 +166,18 @@ export class SeparationModel {
   }
 
   /** The orthonormal Hartley transform on the padded grid (its own inverse). */
-  hartleyTransform(input: Float64Array, output: Float64Array): void {
+  hartleyTransform(input: RealArray, output: RealArray): void {
     this.hartley.transform(input, output);
   }
 
   /** φ̂ = A ⊙ ξ: the Hartley coefficients of φ − μ. */
-  phiHat(xi: Float64Array, out: Float64Array): Float64Array {
+  phiHat<T extends RealArray>(xi: Float64Array, out: T): T {
     for (let i = 0; i < this.n; i++) out[i] = this.amplitude[i]! * xi[i]!;
     return out;
   }
 
   /** s = exp(μ + H(A ⊙ ξ)) into this.s. */
-  diffuseField(xi: Float64Array, mu: number): Float64Array {
+  diffuseField(xi: Float64Array, mu: number): RealArray {
     this.phiHat(xi, this.work);
     this.hartley.transform(this.work, this.s, 0);
     expArray(this.s, mu, this.s);
@@ -213,7 +217,7 @@ export class SeparationModel {
    * K ⊛ u for u = exp(clip τ) on the image (0 in the padding), on the padded grid, in the model's workspace: valid
    * until the next evaluate or convolvedCompact call (the fit's change test reads it at once).
    */
-  convolvedCompact(tau: Float64Array): Float64Array {
+  convolvedCompact(tau: Float64Array): RealArray {
     const { width, height, pw, work } = this;
     work.fill(0);
     for (let y = 0; y < height; y++) {
@@ -229,7 +233,7 @@ export class SeparationModel {
   }
 
   /** K ⊛ v for a padded-grid field (out may equal v). */
-  convolve(v: Float64Array, out: Float64Array): void {
+  convolve(v: RealArray, out: RealArray): void {
     this.convolver.apply(v, out);
   }
 
@@ -340,11 +344,11 @@ export class SeparationModel {
 
 /** ½ Σ w (m − d)² over valid pixels; r = w (m − d) there and 0 at masked ones (padded grid). */
 function gaussianTerm(
-  model: Float64Array,
+  model: RealArray,
   data: Float64Array,
   valid: Uint8Array,
   w: Float64Array,
-  r: Float64Array,
+  r: RealArray,
   width: number,
   height: number,
   pw: number,
@@ -370,11 +374,11 @@ function gaussianTerm(
 
 /** Σ (λ − d log λ) over valid pixels, λ = max(m, 0) + ε; r = 1 − d/λ there and 0 at masked ones. */
 function poissonTerm(
-  model: Float64Array,
+  model: RealArray,
   data: Float64Array,
   valid: Uint8Array,
   eps: number,
-  r: Float64Array,
+  r: RealArray,
   width: number,
   height: number,
   pw: number,
@@ -402,7 +406,7 @@ function poissonTerm(
 function compactAt(
   active: Int32Array,
   tau: Float64Array,
-  uPadded: Float64Array,
+  uPadded: RealArray,
   width: number,
   pw: number,
   tauMin: number,
@@ -426,8 +430,8 @@ function compactAt(
 function compactGradientAt(
   active: Int32Array,
   tau: Float64Array,
-  gt: Float64Array,
-  uPadded: Float64Array,
+  gt: RealArray,
+  uPadded: RealArray,
   gTau: Float64Array,
   width: number,
   pw: number,
@@ -453,7 +457,7 @@ function compactGradientAt(
 // the long evaluate method); the arithmetic and its order are those of the plain loops.
 
 /** out = A ⊙ ξ; returns Σ ½ ξ². */
-function phiHatAndHalfSquares(amplitude: Float32Array, xi: Float64Array, out: Float64Array): number {
+function phiHatAndHalfSquares(amplitude: Float32Array, xi: Float64Array, out: RealArray): number {
   let acc = 0;
   for (let i = 0; i < xi.length; i++) {
     const v = xi[i]!;
@@ -464,7 +468,7 @@ function phiHatAndHalfSquares(amplitude: Float32Array, xi: Float64Array, out: Fl
 }
 
 /** out = a ⊙ b; returns Σ a ⊙ b. */
-function productInto(a: Float64Array, b: Float64Array, out: Float64Array): number {
+function productInto(a: RealArray, b: RealArray, out: RealArray): number {
   let sum = 0;
   for (let i = 0; i < out.length; i++) {
     const v = a[i]! * b[i]!;
@@ -480,7 +484,7 @@ function amplitudeGradient(amplitude: Float32Array, g: Float64Array, xi: Float64
 }
 
 /** a = 0 in the padding (columns ≥ width of the image rows, and every row ≥ height). */
-function zeroOutsideImage(a: Float64Array, width: number, height: number, pw: number): void {
+function zeroOutsideImage(a: RealArray, width: number, height: number, pw: number): void {
   if (pw > width) for (let y = 0; y < height; y++) a.fill(0, y * pw + width, (y + 1) * pw);
   a.fill(0, height * pw);
 }

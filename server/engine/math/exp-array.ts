@@ -58,7 +58,11 @@ function expReduced(x: number, fraction: Float64Array, power: Float64Array): num
 }
 
 /** out[i] = exp(clamp(x[i] + shift)) for i < x.length; out may be x. */
-export function expArray(x: Float64Array, shift: number, out: Float64Array): void {
+export function expArray(
+  x: Float64Array | Float32Array,
+  shift: number,
+  out: Float64Array | Float32Array,
+): void {
   const fraction = FRACTION;
   const power = POWER;
   for (let i = 0; i < x.length; i++) out[i] = expReduced(x[i]! + shift, fraction, power);
@@ -69,11 +73,11 @@ export function expArray(x: Float64Array, shift: number, out: Float64Array): voi
  * above), total = e + add; returns Σ total.
  */
 export function shiftExpAdd(
-  x: Float64Array,
+  x: Float64Array | Float32Array,
   shift: number,
-  e: Float64Array,
-  add: Float64Array,
-  total: Float64Array,
+  e: Float64Array | Float32Array,
+  add: Float64Array | Float32Array,
+  total: Float64Array | Float32Array,
 ): number {
   const fraction = FRACTION;
   const power = POWER;

@@ -7,7 +7,8 @@
  */
 import { createRealFft2d, supportsFloat32 } from '../engine/fft';
 import { separate } from '../engine/separate';
-import { isolatedFluxError, simulateSky } from '../../samples/sky-simulator';
+import { isolatedFluxError, type SkySimulationOptions } from '../../samples/sky-simulator';
+import { startTypeScriptWorker } from '../engine/threads/start-typescript-worker';
 import { psfFromFwhm } from '../engine/psf';
 import { MemorySampler } from './memory-sampler';
 import { nowMs } from './stats';
@@ -45,9 +46,9 @@ const sampler = new MemorySampler();
 const sigma = 1;
 const fwhm = 3.5;
 const fluxError = isolatedFluxError(psfFromFwhm(fwhm, fwhm, 0), sigma);
-// Only the image and its mask stay referenced (the simulator's truth planes are dropped before the fit), so the
-// peak memory is that of the separation of one image held by its caller.
-const { image: skyImage, mask: skyMask } = simulateSky({
+// The sky is simulated in a worker thread (simulate-worker.ts): only its image and mask come back, so the peak
+// memory below is that of separating one image held by its caller, not of the simulator's planes and garbage.
+const skyOptions: SkySimulationOptions = {
   width: size,
   height: size,
   seed: 4242 + size,
@@ -57,7 +58,19 @@ const { image: skyImage, mask: skyMask } = simulateSky({
   noise: { kind: 'gaussian', sigma },
   wcs: { projection: 'TAN', raDeg: 283.75, decDeg: 38.6, pixelArcsec: 1.5 },
   unit: 'Jy/beam',
-});
+};
+const { image: skyImage, mask: skyMask } = await new Promise<{ image: Float64Array; mask: Uint8Array }>(
+  (resolve, reject) => {
+    const worker = startTypeScriptWorker(new URL('./simulate-worker.ts', import.meta.url), {
+      workerData: skyOptions,
+    });
+    worker.once('message', (sky: { image: Float64Array; mask: Uint8Array }) => {
+      resolve(sky);
+      void worker.terminate();
+    });
+    worker.once('error', reject);
+  },
+);
 const image = { width: size, height: size, data: skyImage, mask: skyMask, unit: 'Jy/beam' };
 // RSS with the image in memory, before the first fit (the separation's own share is the peak minus this).
 const baselineRssBytes = process.memoryUsage().rss;

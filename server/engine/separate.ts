@@ -182,7 +182,11 @@ export function choosePsf(image: SeparationImage, settings: ResolvedSeparationSe
 }
 
 /** a + shift as float32. */
-const toFloat32 = (a: Float64Array, shift = 0): Float32Array => Float32Array.from(a, (v) => v + shift);
+/** a += shift in place (the fit's float32 planes become the result's, without copies). */
+const shifted = (a: Float32Array, shift: number): Float32Array => {
+  if (shift !== 0) for (let i = 0; i < a.length; i++) a[i] = a[i]! + shift;
+  return a;
+};
 
 export async function separate(
   image: SeparationImage,
@@ -306,11 +310,11 @@ export async function separate(
     height,
     settings,
     settingsDigest: settingsDigest(settings),
-    diffuseSky: toFloat32(fit.diffuseSky, fit.pedestal),
-    diffuse: toFloat32(fit.diffuse, fit.pedestal),
-    compactSky: toFloat32(fit.compactSky, -fit.pedestal),
-    compact: toFloat32(fit.compact, -fit.pedestal),
-    model: toFloat32(fit.model),
+    diffuseSky: shifted(fit.diffuseSky, fit.pedestal),
+    diffuse: shifted(fit.diffuse, fit.pedestal),
+    compactSky: shifted(fit.compactSky, -fit.pedestal),
+    compact: shifted(fit.compact, -fit.pedestal),
+    model: fit.model,
     residual,
     residualNorm,
     sigma,

@@ -125,15 +125,17 @@ export interface FitResult {
   height: number;
   paddedWidth: number;
   paddedHeight: number;
+  // The planes are float32, as they are written (FITS float32) and as the float32 fit computed them: half the
+  // memory of float64 at the end of a fit, when they exist next to the catalogue's working arrays.
   /** s on the image grid */
-  diffuseSky: Float64Array;
+  diffuseSky: Float32Array;
   /** K ⊛ s on the image grid */
-  diffuse: Float64Array;
+  diffuse: Float32Array;
   /** u on the image grid */
-  compactSky: Float64Array;
+  compactSky: Float32Array;
   /** K ⊛ u on the image grid */
-  compact: Float64Array;
-  model: Float64Array;
+  compact: Float32Array;
+  model: Float32Array;
   /** the "off" level q/α of u */
   pedestal: number;
   alpha: number;
@@ -830,8 +832,8 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
 
     // Components on the image grid.
     model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
-    const crop = (padded: RealArray): Float64Array => {
-      const out = new Float64Array(m);
+    const crop = (padded: RealArray): Float32Array => {
+      const out = new Float32Array(m);
       for (let y = 0; y < height; y++) out.set(padded.subarray(y * pw, y * pw + width), y * width);
       return out;
     };
@@ -840,8 +842,8 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     const sPadded = Float64Array.from(model.s);
     model.convolve(sPadded, sPadded);
     const diffuse = crop(sPadded);
-    const compactSky = Float64Array.from(tau, (t) => Math.exp(model.clipTau(t)));
-    const compact = new Float64Array(m);
+    const compactSky = Float32Array.from(tau, (t) => Math.exp(model.clipTau(t)));
+    const compact = new Float32Array(m);
     for (let i = 0; i < m; i++) compact[i] = modelImage[i]! - diffuse[i]!;
     // final binned power of the MAP field for the diagnostic plot (in sPadded's memory, no longer needed)
     const phiHat = model.phiHat(xi, sPadded);

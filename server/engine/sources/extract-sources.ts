@@ -48,9 +48,9 @@ export interface ExtractSourcesInput {
   mask: Uint8Array;
   noise: ExtractionNoise;
   /** PSF-convolved diffuse model on the image grid, held fixed. */
-  background: Float64Array;
+  background: Float64Array | Float32Array;
   /** MAP compact field u on the image grid (not convolved). */
-  compactSky: Float64Array;
+  compactSky: Float64Array | Float32Array;
   psf: Psf;
   /**
    * Detection threshold: on SNR for Gaussian noise, on the significance for Poisson data.

@@ -125,8 +125,10 @@ export async function fetchPlane(path: string, what: string): Promise<ComponentP
  * (../shared/STACK.md FFT table, pffft WASM, 2 threads: 52 ms). */
 const FFT_PAIR_SECONDS_2048 = 0.052;
 
-/** FFT pairs per objective evaluation, all costs included (npm run bench, 1024² and 2048², quiet machine). */
-const PAIRS_PER_EVALUATION = 4.2;
+/** FFT pairs per objective evaluation, all costs included: 4.2 when the bench measured 5.2–6.3 pairs per
+ *  evaluation, scaled by the 3.5–3.7 it measures since the fused float32 transforms (npm run bench, 1024² and
+ *  2048²). */
+const PAIRS_PER_EVALUATION = 2.9;
 
 /** Full-grid evaluations of a default fit on the bench skies (npm run bench: 91–171 from 256² to 2048², the
  *  coarse start counted at a quarter). */

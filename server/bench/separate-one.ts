@@ -59,12 +59,12 @@ const skyOptions: SkySimulationOptions = {
   wcs: { projection: 'TAN', raDeg: 283.75, decDeg: 38.6, pixelArcsec: 1.5 },
   unit: 'Jy/beam',
 };
-const { image: skyImage, mask: skyMask } = await new Promise<{ image: Float64Array; mask: Uint8Array }>(
+const { image: skyImage, mask: skyMask } = await new Promise<{ image: Float32Array; mask: Uint8Array }>(
   (resolve, reject) => {
     const worker = startTypeScriptWorker(new URL('./simulate-worker.ts', import.meta.url), {
       workerData: skyOptions,
     });
-    worker.once('message', (sky: { image: Float64Array; mask: Uint8Array }) => {
+    worker.once('message', (sky: { image: Float32Array; mask: Uint8Array }) => {
       resolve(sky);
       void worker.terminate();
     });

@@ -6,5 +6,8 @@
 import { parentPort, workerData } from 'node:worker_threads';
 import { simulateSky, type SkySimulationOptions } from '../../samples/sky-simulator';
 
-const { image, mask } = simulateSky(workerData as SkySimulationOptions);
+const sky = simulateSky(workerData as SkySimulationOptions);
+// float32, as a map read from a BITPIX −32 FITS file arrives
+const image = Float32Array.from(sky.image);
+const mask = sky.mask;
 parentPort!.postMessage({ image, mask }, [image.buffer as ArrayBuffer, mask.buffer as ArrayBuffer]);

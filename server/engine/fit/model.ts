@@ -247,7 +247,7 @@ export class SeparationModel {
     tau: Float64Array,
     blocks: StageBlocks,
     gXi: Float64Array | null,
-    gTau: Float64Array | null,
+    gTau: RealArray | null,
   ): [number, number] {
     this.evaluations++;
     const { width, height, pw } = this;
@@ -432,7 +432,7 @@ function compactGradientAt(
   tau: Float64Array,
   gt: RealArray,
   uPadded: RealArray,
-  gTau: Float64Array,
+  gTau: RealArray,
   width: number,
   pw: number,
   tauMin: number,

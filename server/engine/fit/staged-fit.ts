@@ -178,13 +178,7 @@ function scatterShift(
 }
 
 /** g[o + j] = d[o + j]·grad[free[j]]: the gradient in the preconditioned variables. */
-function gatherScaled(
-  g: Float64Array,
-  d: Float64Array,
-  grad: Float64Array,
-  o: number,
-  free: Int32Array,
-): void {
+function gatherScaled(g: Float64Array, d: Float64Array, grad: RealArray, o: number, free: Int32Array): void {
   for (let j = 0; j < free.length; j++) g[o + j] = d[o + j]! * grad[free[j]!]!;
 }
 
@@ -567,7 +561,9 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     let converged = false;
     const trace: FitResult['trace'] = [];
     const seedsPerRound: number[] = [];
-    const weight = new Float64Array(m);
+    // The likelihood curvature per pixel (SeparationModel.curvature): for Gaussian noise it is 1/σ² at valid
+    // pixels and 0 at masked ones, which inverseVariance already holds, so that array is shared.
+    const weight = inverseVariance ?? new Float64Array(m);
     let binned: BinnedPower = { k: [], power: [], mapPower: [], modes: [], information: [] };
 
     const setSpectrum = (taper: number | null): void => {
@@ -634,7 +630,8 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       const tau0 = active ? Float64Array.from(active, (i) => tau[i]!) : new Float64Array(0);
       model.fixCompact(tau, active ?? new Int32Array(0));
       const gXi = new Float64Array(n);
-      const gTau = new Float64Array(m);
+      // (float32 with the float32 objective: it is computed from float32 transforms)
+      const gTau = model.precision === 'float32' ? new Float32Array(m) : new Float64Array(m);
       const unpack = (y: Float64Array): void => {
         if (modes) {
           scatterShift(xi, xi0, d, y, 0, modes);

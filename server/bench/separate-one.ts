@@ -64,9 +64,9 @@ const { image: skyImage, mask: skyMask } = await new Promise<{ image: Float32Arr
     const worker = startTypeScriptWorker(new URL('./simulate-worker.ts', import.meta.url), {
       workerData: skyOptions,
     });
+    // resolved once the worker has ended, so that its heap is gone before the baseline below is read
     worker.once('message', (sky: { image: Float32Array; mask: Uint8Array }) => {
-      resolve(sky);
-      void worker.terminate();
+      worker.terminate().then(() => resolve(sky), reject);
     });
     worker.once('error', reject);
   },

@@ -74,6 +74,9 @@ const { image: skyImage, mask: skyMask } = await new Promise<{ image: Float32Arr
 const image = { width: size, height: size, data: skyImage, mask: skyMask, unit: 'Jy/beam' };
 // RSS with the image in memory, before the first fit (the separation's own share is the peak minus this).
 const baselineRssBytes = process.memoryUsage().rss;
+// The peak counts from here: the simulation before (in the worker, same process) is not the separation's.
+// maxRSS below is the kernel's high-water mark over the process's whole life and includes it.
+sampler.reset();
 const settings = { psf: { fwhmMajor: fwhm, fwhmMinor: fwhm, pa: 0 } };
 
 const wall: number[] = [];

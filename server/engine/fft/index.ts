@@ -11,6 +11,11 @@
  * less than that. Use float32 for the bulk of a fit and float64 for the last iterations (or throughout when
  * speed does not matter).
  *
+ * Fused paths (types.ts FusedTransforms, float32 on one thread): the Hartley transform and the convolution skip
+ * the float64 half spectrum, keep the kernel's spectrum in WASM memory and read and write float32 or float64
+ * grids; createHartley2d and createConvolver use them whenever the transform has them (at 1280², one noisy run:
+ * convolution 61 → 29 ms, Hartley 29 → 22 ms, against a pair of 46 ms).
+ *
  * Sharing: build one RealFft2d per grid and pass it as `{ fft }` to createHartley2d and createConvolver: one
  * worker, one scratch spectrum for all of them.
  */

@@ -227,6 +227,13 @@ export class SeparationModel {
     return work;
   }
 
+  /** K ⊛ s of the last evaluation, in the model's workspace (valid until the next evaluate or workspace call). */
+  convolvedDiffuse(): RealArray {
+    this.work.set(this.s);
+    this.convolver.apply(this.work, this.work);
+    return this.work;
+  }
+
   /** The PSF convolution of the objective (K ⊛ and Kᵀ ⋆ on the padded grid), for the fit's other passes. */
   get psf(): Convolver {
     return this.convolver;

@@ -86,7 +86,7 @@ export function powerLawSpectrum<T extends ModeGrid>(
  */
 export function binnedPower(
   k: ModeGrid,
-  phiHat: Float64Array,
+  phiHat: ModeGrid,
   prior: ModeGrid,
   transferPower: ModeGrid,
   kappa: number,

@@ -836,14 +836,12 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     };
     const diffuseSky = crop(model.s);
     const modelImage = crop(model.modelPadded);
-    const sPadded = Float64Array.from(model.s);
-    model.convolve(sPadded, sPadded);
-    const diffuse = crop(sPadded);
+    const diffuse = crop(model.convolvedDiffuse());
     const compactSky = Float32Array.from(tau, (t) => Math.exp(model.clipTau(t)));
     const compact = new Float32Array(m);
     for (let i = 0; i < m; i++) compact[i] = modelImage[i]! - diffuse[i]!;
-    // final binned power of the MAP field for the diagnostic plot (in sPadded's memory, no longer needed)
-    const phiHat = model.phiHat(xi, sPadded);
+    // final binned power of the MAP field for the diagnostic plot (φ̂ in float32 is ample for a plot)
+    const phiHat = model.phiHat(xi, new Float32Array(n));
     model.curvature(weight);
     let sw = 0;
     for (let y = 0; y < height; y++)

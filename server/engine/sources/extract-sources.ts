@@ -165,10 +165,14 @@ export function extractSources(input: ExtractSourcesInput): CatalogueSource[] {
 
   // A source at the threshold peaks at t·σ·√ΣP² in G = PSF ⊛ u. Footprints reach down to 15% of that and
   // seeds need 30%: generous on purpose, the refined fit and the threshold do the selection.
-  const gThreshold = new Float64Array(n);
-  for (let i = 0; i < n; i++) gThreshold[i] = options.threshold * (sigmaAt[i] as number) * Math.sqrt(sumP2);
-  const floor = gThreshold.map((v) => 0.15 * v);
-  const seedLevel = gThreshold.map((v) => 0.3 * v);
+  // (the two levels in float32: they are cuts at fractions of a threshold, and image-sized)
+  const floor = new Float32Array(n);
+  const seedLevel = new Float32Array(n);
+  for (let i = 0; i < n; i++) {
+    const gThreshold = options.threshold * (sigmaAt[i] as number) * Math.sqrt(sumP2);
+    floor[i] = 0.15 * gThreshold;
+    seedLevel[i] = 0.3 * gThreshold;
+  }
   const excess = new Float64Array(n);
   for (let i = 0; i < n; i++)
     excess[i] = valid[i] ? Math.max((compactSky[i] as number) - options.pedestal, 0) : 0;

@@ -38,9 +38,9 @@ export interface GroupingResult {
 
 export interface GroupingOptions {
   /** Footprint floor on G (image units). */
-  floor: number | Float64Array;
+  floor: number | Float64Array | Float32Array;
   /** Minimum G at a seed (image units); may be a per-pixel map. */
-  seedLevel: number | Float64Array;
+  seedLevel: number | Float64Array | Float32Array;
   /** Seeds closer than this (pixels) are merged. */
   mergeRadiusPx: number;
 }
@@ -82,7 +82,7 @@ export function splittingKernel(psf: Psf): Psf {
   return psfFromFwhm(Math.max(mean, 0.1), Math.max(mean, 0.1), 0);
 }
 
-function levelAt(level: number | Float64Array, i: number): number {
+function levelAt(level: number | Float64Array | Float32Array, i: number): number {
   return typeof level === 'number' ? level : (level[i] as number);
 }
 

@@ -146,7 +146,7 @@ export function extractSources(input: ExtractSourcesInput): CatalogueSource[] {
   const sumP2 = psfSumOfSquares(psf);
 
   // Per-pixel noise σ for the grouping levels, and 1/σ² for the fit.
-  const sigmaAt = new Float64Array(n);
+  const sigmaAt = new Float32Array(n); // float32: σ per pixel for thresholds and flags
   let inverseVariance: Float64Array | null = null;
   if (input.noise.kind === 'gaussian') {
     const sigma = input.noise.sigma;
@@ -173,7 +173,7 @@ export function extractSources(input: ExtractSourcesInput): CatalogueSource[] {
     floor[i] = 0.15 * gThreshold;
     seedLevel[i] = 0.3 * gThreshold;
   }
-  const excess = new Float64Array(n);
+  const excess = new Float32Array(n); // float32, as the fit's compact plane it comes from
   for (let i = 0; i < n; i++)
     excess[i] = valid[i] ? Math.max((compactSky[i] as number) - options.pedestal, 0) : 0;
   const grouping = groupCompactField(excess, width, height, valid, psf, {

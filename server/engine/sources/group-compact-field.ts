@@ -47,7 +47,7 @@ export interface GroupingOptions {
 
 /** Convolves an image with a PSF on a zero-padded FFT grid; returns the image-sized result (float32 accuracy). */
 export function convolveOnPaddedGrid(
-  image: Float64Array,
+  image: Float64Array | Float32Array,
   width: number,
   height: number,
   psf: Psf,
@@ -87,7 +87,7 @@ function levelAt(level: number | Float64Array | Float32Array, i: number): number
 }
 
 export function groupCompactField(
-  excess: Float64Array,
+  excess: Float64Array | Float32Array,
   width: number,
   height: number,
   valid: Uint8Array,

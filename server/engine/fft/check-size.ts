@@ -16,6 +16,13 @@ export function checkFftSize(width: number, height: number): void {
   }
 }
 
+/** The grid itself when it is float64 (the transforms without fused paths take no other); `what` names the
+ *  operation in the message. */
+export function asFloat64(array: Float64Array | Float32Array, what: string): Float64Array {
+  if (!(array instanceof Float64Array)) throw new TypeError(`${what} takes float64 grids only`);
+  return array;
+}
+
 /** Throws unless `array` has exactly `length` elements; `what` names the argument in the message. */
 export function checkLength(array: { length: number }, length: number, what: string): void {
   if (array.length !== length) {

@@ -9,7 +9,7 @@
  * A centro-symmetric kernel (k(−p) = k(p) exactly, e.g. a centred Gaussian PSF) has a real spectrum: only the real
  * part is kept, and apply and adjoint are the same operation.
  */
-import { checkLength } from './check-size';
+import { asFloat64, checkLength } from './check-size';
 import { transformFor } from './real-fft-2d';
 import { scratchSpectrum } from './shared-buffers';
 import type { FusedKernel, RealArray, RealFft2d, TransformOptions } from './types';
@@ -87,12 +87,12 @@ class FftConvolver implements Convolver {
 
   apply(x: RealArray, out: RealArray, shift?: number): void {
     if (this.fused) this.fft.fused!.convolve(x, out, this.fused.apply, shift);
-    else this.run(asFloat64(x), asFloat64(out), 1);
+    else this.run(asFloat64(x, WHAT), asFloat64(out, WHAT), 1);
   }
 
   adjoint(x: RealArray, out: RealArray, shift?: number): void {
     if (this.fused) this.fft.fused!.convolve(x, out, this.fused.adjoint ?? this.fused.apply, shift);
-    else this.run(asFloat64(x), asFloat64(out), -1);
+    else this.run(asFloat64(x, WHAT), asFloat64(out, WHAT), -1);
   }
 
   private run(x: Float64Array, out: Float64Array, conjugate: 1 | -1): void {
@@ -123,11 +123,8 @@ class FftConvolver implements Convolver {
   }
 }
 
-/** The transforms without fused paths take float64 grids only. */
-function asFloat64(a: RealArray): Float64Array {
-  if (!(a instanceof Float64Array)) throw new TypeError('this transform convolves float64 grids only');
-  return a;
-}
+/** For asFloat64's message on the path without fusion. */
+const WHAT = 'this convolution';
 
 /** k(−x, −y) on the periodic grid: its spectrum is conj K, so convolving with it is the adjoint. */
 function mirrored(kernel: Float64Array, width: number, height: number): Float64Array {

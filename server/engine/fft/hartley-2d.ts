@@ -6,7 +6,7 @@
  * The matrix is real, symmetric and orthogonal, so the transform is its own inverse and its own adjoint:
  * the gradient pass of φ = H(A ⊙ ξ) is the same call. Output layout = input layout (row-major, x fastest).
  */
-import { checkLength } from './check-size';
+import { asFloat64, checkLength } from './check-size';
 import { transformFor } from './real-fft-2d';
 import { scratchSpectrum } from './shared-buffers';
 import type { RealArray, RealFft2d, TransformOptions } from './types';
@@ -50,12 +50,11 @@ class Hartley2dFromFft implements Hartley2d {
       this.fft.fused.hartley(input, output, shift);
       return;
     }
-    if (!(input instanceof Float64Array) || !(output instanceof Float64Array)) {
-      throw new TypeError('this Hartley transform takes float64 grids only');
-    }
+    const input64 = asFloat64(input, 'this Hartley transform');
+    const output64 = asFloat64(output, 'this Hartley transform');
     // the shared scratch spectrum, fetched here so that a transform with fused paths never allocates it
     const { re, im } = scratchSpectrum(this.fft);
-    this.fft.forward(input, re, im);
+    this.fft.forward(input64, re, im);
     const scale = 1 / Math.sqrt(width * height);
     for (let ky = 0; ky < height; ky++) {
       const row = ky * spectrumWidth;
@@ -64,9 +63,9 @@ class Hartley2dFromFft implements Hartley2d {
       for (let kx = 0; kx < spectrumWidth; kx++) {
         const r = re[row + kx]!,
           i = im[row + kx]!;
-        output[out + kx] = (r - i) * scale;
+        output64[out + kx] = (r - i) * scale;
         // F(w−kx, h−ky) = conj F(kx, ky), so H there is (Re + Im)/√N.
-        if (kx > 0 && width - kx >= spectrumWidth) output[mirror + width - kx] = (r + i) * scale;
+        if (kx > 0 && width - kx >= spectrumWidth) output64[mirror + width - kx] = (r + i) * scale;
       }
     }
   }

@@ -272,6 +272,14 @@ export async function separate(
   options.signal?.throwIfAborted();
 
   // Catalogue.
+  options.onProgress?.({
+    phase: 'catalogue',
+    stage: 'catalogue',
+    iteration: fit.iterations,
+    objective: fit.objective,
+    gradNorm: fit.trace.at(-1)?.gradNorm ?? 0,
+    evaluations: fit.evaluations,
+  });
   const t2 = performance.now();
   const perBeam = image.unit ? /\/\s*beam\b|beam\s*-1|beam\^-1/i.test(image.unit) : false;
   const beamAreaPx = psfBeamAreaPx(psf);

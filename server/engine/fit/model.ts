@@ -135,11 +135,10 @@ export class SeparationModel {
     this.amplitude = new Float32Array(this.n);
     // float32 workspaces with the float32 transforms (their fused paths read and write them directly, and the
     // transforms round to float32 anyway): half the memory, and no conversion passes.
-    const Grid = this.precision === 'float32' ? Float32Array : Float64Array;
-    this.uPadded = new Grid(this.n);
-    this.s = new Grid(this.n);
-    this.modelPadded = new Grid(this.n);
-    this.work = new Grid(this.n);
+    this.uPadded = this.newGrid();
+    this.s = this.newGrid();
+    this.modelPadded = this.newGrid();
+    this.work = this.newGrid();
     let maxAbs = 0;
     let sum = 0;
     let count = 0;
@@ -174,6 +173,16 @@ export class SeparationModel {
   phiHat<T extends RealArray>(xi: Float64Array, out: T): T {
     for (let i = 0; i < this.n; i++) out[i] = this.amplitude[i]! * xi[i]!;
     return out;
+  }
+
+  /** A new zeroed padded-grid array of the type the model's transforms take without conversion. */
+  newGrid(): RealArray {
+    return this.precision === 'float32' ? new Float32Array(this.n) : new Float64Array(this.n);
+  }
+
+  /** φ̂ = A ⊙ ξ in the model's workspace (valid until the next evaluate or workspace call). */
+  phiHatInWorkspace(xi: Float64Array): RealArray {
+    return this.phiHat(xi, this.work);
   }
 
   /** s = exp(μ + H(A ⊙ ξ)) into this.s. */
@@ -225,6 +234,13 @@ export class SeparationModel {
     }
     this.convolver.apply(work, work);
     return work;
+  }
+
+  /** u = exp(clip τ) on the image grid, float32. */
+  compactSky(tau: Float64Array): Float32Array {
+    const out = new Float32Array(this.m);
+    for (let i = 0; i < this.m; i++) out[i] = Math.exp(this.clipTau(tau[i]!));
+    return out;
   }
 
   /** K ⊛ s of the last evaluation, in the model's workspace (valid until the next evaluate or workspace call). */

@@ -8,7 +8,7 @@
  * (generalised least squares for one amplitude; any linear-models text). Local maxima (3 × 3) of F̂/σ_F above
  * `snr` become seeds: u_p ← u_p + F̂(p), i.e. τ_p = log(u_p + F̂(p)).
  */
-import type { Convolver } from '../fft';
+import type { Convolver, FftPrecision, RealArray } from '../fft';
 
 export interface SeedInput {
   width: number;
@@ -16,13 +16,15 @@ export interface SeedInput {
   pw: number;
   ph: number;
   /** residual d − model on the image grid */
-  residual: Float64Array;
+  residual: RealArray;
   /** likelihood weight per image pixel (0 = masked) */
   weight: Float64Array;
   /** convolver with the PSF kernel K (adjoint gives K ⋆) */
   psf: Convolver;
   /** convolver with K² (elementwise square of the kernel) */
   psfSquared: Convolver;
+  /** the arithmetic of both convolvers: their padded grids are float32 arrays for float32 transforms */
+  precision: FftPrecision;
   snr: number;
 }
 
@@ -34,8 +36,11 @@ export interface Seed {
 
 export function matchedFilterSeeds(input: SeedInput): Seed[] {
   const { width, height, pw, ph, residual, weight, psf, psfSquared, snr } = input;
-  const num = new Float64Array(pw * ph);
-  const den = new Float64Array(pw * ph);
+  // float32 maps with float32 transforms, and F̂/σ_F in float32 (it only picks the maxima; a seed's F̂ and
+  // F̂/σ_F are computed at them): at 4096² the four float64 maps took about 0.7 GiB
+  const Grid = input.precision === 'float32' ? Float32Array : Float64Array;
+  const num = new Grid(pw * ph);
+  const den = new Grid(pw * ph);
   for (let y = 0; y < height; y++) {
     for (let x = 0; x < width; x++) {
       const i = y * width + x;
@@ -45,8 +50,7 @@ export function matchedFilterSeeds(input: SeedInput): Seed[] {
   }
   psf.adjoint(num, num);
   psfSquared.adjoint(den, den);
-  const ratio = new Float64Array(width * height).fill(-Infinity);
-  const flux = new Float64Array(width * height);
+  const ratio = new Float32Array(width * height).fill(-Infinity);
   let maxDen = 0;
   for (let i = 0; i < den.length; i++) maxDen = Math.max(maxDen, den[i]!);
   for (let y = 0; y < height; y++) {
@@ -54,8 +58,7 @@ export function matchedFilterSeeds(input: SeedInput): Seed[] {
       const i = y * width + x;
       const d = den[y * pw + x]!;
       if (!(weight[i]! > 0) || !(d > 1e-6 * maxDen)) continue;
-      flux[i] = num[y * pw + x]! / d;
-      ratio[i] = flux[i]! * Math.sqrt(d);
+      ratio[i] = num[y * pw + x]! / Math.sqrt(d); // F̂/σ_F
     }
   }
   const seeds: Seed[] = [];
@@ -79,7 +82,10 @@ export function matchedFilterSeeds(input: SeedInput): Seed[] {
           }
         }
       }
-      if (isMax) seeds.push({ index: i, flux: flux[i]!, snr: v });
+      if (isMax) {
+        const p = y * pw + x;
+        seeds.push({ index: i, flux: num[p]! / den[p]!, snr: num[p]! / Math.sqrt(den[p]!) });
+      }
     }
   }
   return seeds;

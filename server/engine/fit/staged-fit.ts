@@ -177,6 +177,21 @@ function scatterShift(
   }
 }
 
+/** log v for each v, as a new float64 array. */
+function logOf(values: RealArray): Float64Array {
+  const out = new Float64Array(values.length);
+  for (let i = 0; i < values.length; i++) out[i] = Math.log(values[i]!);
+  return out;
+}
+
+/** values[free[j]] for each j, as a new array. (A loop: TypedArray.from with a map function first lists the
+ *  values as JS numbers, which at 4096² took ~10× the time and several times the memory, measured.) */
+function gatherAt(values: Float64Array, free: Int32Array): Float64Array {
+  const out = new Float64Array(free.length);
+  for (let j = 0; j < free.length; j++) out[j] = values[free[j]!]!;
+  return out;
+}
+
 /** g[o + j] = d[o + j]·grad[free[j]]: the gradient in the preconditioned variables. */
 function gatherScaled(g: Float64Array, d: Float64Array, grad: RealArray, o: number, free: Int32Array): void {
   for (let j = 0; j < free.length; j++) g[o + j] = d[o + j]! * grad[free[j]!]!;
@@ -341,7 +356,9 @@ function upsampledStart(
   grid: {
     pw: number;
     ph: number;
-    hartley: (input: Float64Array, output: Float64Array) => void;
+    hartley: (input: RealArray, output: RealArray) => void;
+    /** a new padded-grid array for the transform (SeparationModel.newGrid) */
+    newGrid: () => RealArray;
     amplitude: ModeGrid;
     floor: number;
   },
@@ -350,7 +367,7 @@ function upsampledStart(
   const cw = coarse.paddedWidth;
   const chh = coarse.paddedHeight;
   const phiC = coarse.logDiffusePadded!;
-  const phi = new Float64Array(pw * ph);
+  const phi = grid.newGrid();
   const ln4 = Math.log(4);
   let mean = 0;
   for (let y = 0; y < ph; y++) {
@@ -375,7 +392,7 @@ function upsampledStart(
   }
   mean /= pw * ph;
   for (let i = 0; i < phi.length; i++) phi[i] = phi[i]! - mean;
-  const hat = new Float64Array(pw * ph);
+  const hat = grid.newGrid();
   grid.hartley(phi, hat);
   for (let i = 0; i < hat.length; i++) {
     const a = grid.amplitude[i]!;
@@ -384,10 +401,179 @@ function upsampledStart(
   return mean;
 }
 
-function median(values: number[]): number {
-  // a typed array sorts numerically without a comparator call per comparison (10⁶ values: 0.35 s instead of
-  // 1.4 s, measured once on a busy machine)
-  const a = Float64Array.from(values).sort();
+// The passes over whole grids live in small functions of their own (below and above): V8 does not optimise a
+// function as large as stagedFit, and its loops ran several times slower in place (measured at 256², one run
+// each on a busy machine: the start before the first stage took 113 ms in place, 32 ms in these functions).
+
+/** The box means of the start: the data averaged over valid pixels of (2r+1)² boxes, above the pedestal and
+ *  floored. */
+interface BoxStart {
+  data: Float64Array;
+  valid: Uint8Array;
+  width: number;
+  height: number;
+  r: number;
+  pedestal: number;
+  floor: number;
+}
+
+/** Variance of log(box mean − pedestal, floored) over boxes centred every r pixels. */
+function boxLogVariance(b: BoxStart): number {
+  const { data, valid, width, height, r } = b;
+  let sum = 0;
+  let sum2 = 0;
+  let count = 0;
+  for (let y = 0; y < height; y += r) {
+    for (let x = 0; x < width; x += r) {
+      let s = 0;
+      let c = 0;
+      for (let yy = Math.max(0, y - r); yy <= Math.min(height - 1, y + r); yy++) {
+        for (let xx = Math.max(0, x - r); xx <= Math.min(width - 1, x + r); xx++) {
+          if (valid[yy * width + xx]) {
+            s += data[yy * width + xx]!;
+            c++;
+          }
+        }
+      }
+      if (c > 0) {
+        const v = Math.log(Math.max(s / c - b.pedestal, b.floor));
+        sum += v;
+        sum2 += v * v;
+        count++;
+      }
+    }
+  }
+  const meanLog = sum / count;
+  return Math.max(sum2 / count - meanLog * meanLog, 0);
+}
+
+/** out[y·pw + x] = log(box mean − pedestal, floored) − mu at every pixel with valid ones in its box, 0 elsewhere
+ *  (out zeroed on entry; separable box sums). */
+function boxSmoothedLog(b: BoxStart, mu: number, out: RealArray, pw: number): RealArray {
+  const { data, valid, width, height, r } = b;
+  const rowSum = new Float64Array(width * height);
+  const rowCount = new Float64Array(width * height);
+  for (let y = 0; y < height; y++) {
+    for (let x = 0; x < width; x++) {
+      let sum = 0;
+      let c = 0;
+      for (let xx = Math.max(0, x - r); xx <= Math.min(width - 1, x + r); xx++) {
+        const i = y * width + xx;
+        if (valid[i]) {
+          sum += data[i]!;
+          c++;
+        }
+      }
+      rowSum[y * width + x] = sum;
+      rowCount[y * width + x] = c;
+    }
+  }
+  for (let y = 0; y < height; y++) {
+    for (let x = 0; x < width; x++) {
+      let sum = 0;
+      let c = 0;
+      for (let yy = Math.max(0, y - r); yy <= Math.min(height - 1, y + r); yy++) {
+        sum += rowSum[yy * width + x]!;
+        c += rowCount[yy * width + x]!;
+      }
+      if (c > 0) out[y * pw + x] = Math.log(Math.max(sum / c - b.pedestal, b.floor)) - mu;
+    }
+  }
+  return out;
+}
+
+/** ξ_k = A_k ĥ_k / (A_k² + ν) with A_k = √P_k: the Wiener filter for white noise of per-mode variance ν. */
+function wienerFilter(power: ModeGrid, hat: RealArray, nu: number, xi: Float64Array): void {
+  for (let i = 0; i < xi.length; i++) {
+    const a = Math.sqrt(power[i]!);
+    xi[i] = a > 0 ? (a * hat[i]!) / (a * a + nu) : 0;
+  }
+}
+
+/** ξ = φ̂ / A where A > 0, 0 elsewhere. */
+function divideByAmplitude(phiHat: RealArray, amplitude: ModeGrid, xi: Float64Array): void {
+  for (let i = 0; i < xi.length; i++) xi[i] = amplitude[i]! > 0 ? phiHat[i]! / amplitude[i]! : 0;
+}
+
+/** Σ s² w over the image part of a padded grid: the data's total curvature of the diffuse mean. */
+function weightedSquares(
+  s: RealArray,
+  weight: Float64Array,
+  width: number,
+  height: number,
+  pw: number,
+): number {
+  let sw = 0;
+  for (let y = 0; y < height; y++) {
+    for (let x = 0; x < width; x++) sw += s[y * pw + x]! ** 2 * weight[y * width + x]!;
+  }
+  return sw;
+}
+
+/** d − model at the valid pixels of the image part of a padded model, 0 at the others (float32). */
+function imageResidual(
+  data: Float64Array,
+  valid: Uint8Array,
+  modelPadded: RealArray,
+  width: number,
+  height: number,
+  pw: number,
+): Float32Array {
+  const out = new Float32Array(width * height);
+  for (let y = 0; y < height; y++) {
+    for (let x = 0; x < width; x++) {
+      const i = y * width + x;
+      out[i] = valid[i] ? data[i]! - modelPadded[y * pw + x]! : 0;
+    }
+  }
+  return out;
+}
+
+/** 1/σ² at the valid pixels with a usable σ (positive, finite), 0 at the others. */
+function inverseVarianceOf(sigma: number | Float64Array, valid: Uint8Array): Float64Array {
+  const out = new Float64Array(valid.length);
+  for (let i = 0; i < out.length; i++) {
+    const si = typeof sigma === 'number' ? sigma : sigma[i]!;
+    if (valid[i] && si > 0 && Number.isFinite(si)) out[i] = 1 / (si * si);
+  }
+  return out;
+}
+
+/** Mean of the values at the valid pixels. */
+function meanWhere(values: Float64Array, valid: Uint8Array): number {
+  let sum = 0;
+  let count = 0;
+  for (let i = 0; i < values.length; i++) {
+    if (valid[i]) {
+      sum += values[i]!;
+      count++;
+    }
+  }
+  return sum / count;
+}
+
+/** out = a − b. */
+function difference(a: Float32Array, b: Float32Array, out: Float32Array): Float32Array {
+  for (let i = 0; i < out.length; i++) out[i] = a[i]! - b[i]!;
+  return out;
+}
+
+function meanOf(values: ModeGrid): number {
+  let sum = 0;
+  for (let i = 0; i < values.length; i++) sum += values[i]!;
+  return sum / values.length;
+}
+
+/** Median of values[i] over the i with keep(i) (NaN when there are none). */
+function medianWhere(values: ArrayLike<number>, keep: (i: number) => boolean): number {
+  // Into a typed array: it sorts numerically without a comparator call per comparison (10⁶ values: 0.35 s
+  // instead of 1.4 s, measured once on a busy machine), and at 4096² a JS array of the image's values took
+  // about 0.2 GiB and stayed reachable from the caller's frame for the whole fit.
+  let count = 0;
+  for (let i = 0; i < values.length; i++) if (keep(i)) count++;
+  const a = new Float64Array(count);
+  for (let i = 0, j = 0; i < values.length; i++) if (keep(i)) a[j++] = values[i]!;
+  a.sort();
   const n = a.length;
   return n % 2 ? a[(n - 1) / 2]! : (a[n / 2 - 1]! + a[n / 2]!) / 2;
 }
@@ -417,25 +603,14 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
 
   // Noise weights and the single-source flux error σ_F = σ/√ΣK² (Gaussian) or √(mean counts)/√ΣK² (Poisson).
   const m = width * height;
-  const validValues: number[] = [];
-  for (let i = 0; i < m; i++) if (valid[i]) validValues.push(data[i]!);
   let inverseVariance: Float64Array | undefined;
   let sigmaTypical: number;
   if (input.noise.kind === 'gaussian') {
     const sigma = input.noise.sigma;
-    inverseVariance = new Float64Array(m);
-    const sigmas: number[] = [];
-    for (let i = 0; i < m; i++) {
-      const si = typeof sigma === 'number' ? sigma : sigma[i]!;
-      if (valid[i] && si > 0 && Number.isFinite(si)) {
-        inverseVariance[i] = 1 / (si * si);
-        sigmas.push(si);
-      }
-    }
-    sigmaTypical = median(sigmas);
+    inverseVariance = inverseVarianceOf(sigma, valid);
+    sigmaTypical = typeof sigma === 'number' ? sigma : medianWhere(sigma, (i) => inverseVariance![i]! > 0);
   } else {
-    const mean = validValues.reduce((s, v) => s + v, 0) / validValues.length;
-    sigmaTypical = Math.sqrt(Math.max(mean, 0.01));
+    sigmaTypical = Math.sqrt(Math.max(meanWhere(data, valid), 0.01));
   }
   const fluxErrorScale = sigmaTypical / Math.sqrt(sumK2);
   const q = qRelative * fluxErrorScale;
@@ -474,85 +649,33 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
   try {
     // Data-driven start: μ from the median level above the pedestal; the spectrum amplitude from the variance of
     // the log of a lightly smoothed, floored copy of the data; slope 3 (a common starting value).
-    const level = Math.max(median(validValues) - pedestal, 0.1 * sigmaTypical);
+    const level = Math.max(medianWhere(data, (i) => valid[i] !== 0) - pedestal, 0.1 * sigmaTypical);
     let mu = Math.log(level);
-    const logs: number[] = [];
-    {
-      const r = Math.max(1, Math.round(fwhm.major));
-      for (let y = 0; y < height; y += r) {
-        for (let x = 0; x < width; x += r) {
-          let s = 0;
-          let c = 0;
-          for (let yy = Math.max(0, y - r); yy <= Math.min(height - 1, y + r); yy++) {
-            for (let xx = Math.max(0, x - r); xx <= Math.min(width - 1, x + r); xx++) {
-              if (valid[yy * width + xx]) {
-                s += data[yy * width + xx]!;
-                c++;
-              }
-            }
-          }
-          if (c > 0) logs.push(Math.log(Math.max(s / c - pedestal, 0.3 * sigmaTypical, 0.1 * level)));
-        }
-      }
-    }
-    const meanLog = logs.reduce((s, v) => s + v, 0) / logs.length;
-    const varLog = logs.reduce((s, v) => s + (v - meanLog) ** 2, 0) / logs.length;
+    const box = {
+      data,
+      valid,
+      width,
+      height,
+      r: Math.max(1, Math.round(fwhm.major)),
+      pedestal,
+      floor: Math.max(0.3 * sigmaTypical, 0.1 * level),
+    };
+    const varLog = boxLogVariance(box);
     let spectrum: SpectrumParameters = { amplitude: 1, slope: options.spectrum?.slope ?? 3, turnover };
-    {
-      // amplitude so that the mean of P_k over the modes (the pointwise variance of φ) is the measured variance
-      powerLawSpectrum(k, spectrum, null, power);
-      let mean = 0;
-      for (let i = 0; i < n; i++) mean += power[i]!;
-      mean /= n;
-      spectrum.amplitude = options.spectrum?.amplitude ?? Math.max(varLog, 0.01) / mean;
-    }
+    // amplitude so that the mean of P_k over the modes (the pointwise variance of φ) is the measured variance
+    spectrum.amplitude =
+      options.spectrum?.amplitude ??
+      Math.max(varLog, 0.01) / meanOf(powerLawSpectrum(k, spectrum, null, power));
 
     // Start for ξ: a Wiener-filtered log of the box-smoothed data, so the first stage begins near the large
     // scales of the answer: ξ_k = A_k ĥ_k / (A_k² + ν), ĥ = H(φ0 − μ), ν the per-mode variance of the noise in
     // φ0 (σ/((2r+1)·level))² for a (2r+1)² box (the standard Wiener filter for white noise).
     const xi = new Float64Array(n);
     {
-      const r = Math.max(1, Math.round(fwhm.major));
-      const rowSum = new Float64Array(m);
-      const rowCount = new Float64Array(m);
-      for (let y = 0; y < height; y++) {
-        for (let x = 0; x < width; x++) {
-          let sum = 0;
-          let c = 0;
-          for (let xx = Math.max(0, x - r); xx <= Math.min(width - 1, x + r); xx++) {
-            const i = y * width + xx;
-            if (valid[i]) {
-              sum += data[i]!;
-              c++;
-            }
-          }
-          rowSum[y * width + x] = sum;
-          rowCount[y * width + x] = c;
-        }
-      }
-      const phi0 = new Float64Array(n);
-      phi0.fill(mu);
-      const floorLevel = Math.max(0.3 * sigmaTypical, 0.1 * level);
-      for (let y = 0; y < height; y++) {
-        for (let x = 0; x < width; x++) {
-          let sum = 0;
-          let c = 0;
-          for (let yy = Math.max(0, y - r); yy <= Math.min(height - 1, y + r); yy++) {
-            sum += rowSum[yy * width + x]!;
-            c += rowCount[yy * width + x]!;
-          }
-          if (c > 0) phi0[y * pw + x] = Math.log(Math.max(sum / c - pedestal, floorLevel));
-        }
-      }
-      for (let i = 0; i < n; i++) phi0[i] = phi0[i]! - mu;
-      const hat = new Float64Array(n);
-      model.hartleyTransform(phi0, hat);
-      const nu = (sigmaTypical / ((2 * r + 1) * level)) ** 2;
-      powerLawSpectrum(k, spectrum, kc, power);
-      for (let i = 0; i < n; i++) {
-        const a = Math.sqrt(power[i]!);
-        xi[i] = a > 0 ? (a * hat[i]!) / (a * a + nu) : 0;
-      }
+      const hat = model.newGrid();
+      model.hartleyTransform(boxSmoothedLog(box, mu, model.newGrid(), pw), hat);
+      const nu = (sigmaTypical / ((2 * box.r + 1) * level)) ** 2;
+      wienerFilter(powerLawSpectrum(k, spectrum, kc, power), hat, nu, xi);
     }
     const tau = new Float64Array(m).fill(Math.log(pedestal));
     let evaluations = 0;
@@ -582,6 +705,8 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       return rmsChange(model.modelPadded, compactPadded, lastModel, lastCompact, weight, width, height, pw);
     };
 
+    let gXi: Float64Array | null = null;
+    let gTau: RealArray | null = null;
     const runStage = (
       stage: string,
       blocks: StageBlocks,
@@ -593,11 +718,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       model.evaluate(xi, mu, tau, blocks, null, null);
       model.curvature(weight);
       changeSinceLastCheck();
-      const s = model.s;
-      let sw = 0;
-      for (let y = 0; y < height; y++) {
-        for (let x = 0; x < width; x++) sw += s[y * pw + x]! ** 2 * weight[y * width + x]!;
-      }
+      const sw = weightedSquares(model.s, weight, width, height, pw);
       const kappa = sw / n;
       // Only the diffuse modes the data can move are free: P_k |K_k|² κ ≥ modeFloor (the data's curvature of
       // the mode relative to its prior's; below it the mode stays at its prior-dominated value, and the L-BFGS
@@ -625,13 +746,16 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
           d[nDiffuse + j] = 1 / Math.sqrt(1 + u * u * sumK2 * weight[i]! + q / u);
         }
       }
-      const xi0 = modes ? Float64Array.from(modes, (i) => xi[i]!) : new Float64Array(0);
+      const xi0 = modes ? gatherAt(xi, modes) : new Float64Array(0);
       const mu0 = mu;
-      const tau0 = active ? Float64Array.from(active, (i) => tau[i]!) : new Float64Array(0);
+      const tau0 = active ? gatherAt(tau, active) : new Float64Array(0);
       model.fixCompact(tau, active ?? new Int32Array(0));
-      const gXi = new Float64Array(n);
-      // (float32 with the float32 objective: it is computed from float32 transforms)
-      const gTau = model.precision === 'float32' ? new Float32Array(m) : new Float64Array(m);
+      // (allocated once for all stages: a padded float64 grid left to the collector per stage measurably raised
+      // the peak; gTau is float32 with the float32 objective, which computes it from float32 transforms)
+      const gradXi = blocks.diffuse ? (gXi ??= new Float64Array(n)) : null;
+      const gradTau = blocks.compact
+        ? (gTau ??= model.precision === 'float32' ? new Float32Array(m) : new Float64Array(m))
+        : null;
       const unpack = (y: Float64Array): void => {
         if (modes) {
           scatterShift(xi, xi0, d, y, 0, modes);
@@ -642,19 +766,12 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       const result = minimiseLbfgs(
         (y, g) => {
           unpack(y);
-          const [f, gMu] = model.evaluate(
-            xi,
-            mu,
-            tau,
-            blocks,
-            blocks.diffuse ? gXi : null,
-            blocks.compact ? gTau : null,
-          );
-          if (modes) {
-            gatherScaled(g, d, gXi, 0, modes);
+          const [f, gMu] = model.evaluate(xi, mu, tau, blocks, gradXi, gradTau);
+          if (modes && gradXi) {
+            gatherScaled(g, d, gradXi, 0, modes);
             g[nModes] = d[nModes]! * gMu;
           }
-          if (active) gatherScaled(g, d, gTau, nDiffuse, active);
+          if (active && gradTau) gatherScaled(g, d, gradTau, nDiffuse, active);
           return f;
         },
         new Float64Array(d.length),
@@ -688,13 +805,12 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
 
     /** Critical-filter update of (a, γ) from modes up to kMax; ξ re-expressed for the new spectrum. */
     const updateSpectrum = (kMax: number, taperAfter: number | null): void => {
-      const phiHat = model.phiHat(xi, new Float64Array(n));
       model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
       model.curvature(weight);
-      let sw = 0;
-      for (let y = 0; y < height; y++) {
-        for (let x = 0; x < width; x++) sw += model.s[y * pw + x]! ** 2 * weight[y * width + x]!;
-      }
+      const sw = weightedSquares(model.s, weight, width, height, pw);
+      // (in the model's workspace, in its precision: ξ re-expressed below carries float32 rounding, far below
+      // the float32 objective's own)
+      const phiHat = model.phiHatInWorkspace(xi);
       binned = binnedPower(k, phiHat, power, model.transferPower, sw / n, kMax);
       if (estimateSpectrum && binned.k.length >= 2) {
         const fitted = fitPowerLaw(binned, turnover, slopeMin, slopeMax);
@@ -718,7 +834,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
         }
       }
       setSpectrum(taperAfter);
-      for (let i = 0; i < n; i++) xi[i] = model.amplitude[i]! > 0 ? phiHat[i]! / model.amplitude[i]! : 0;
+      divideByAmplitude(phiHat, model.amplitude, xi);
     };
 
     // Stage 1: diffuse only, tapered spectrum.
@@ -758,6 +874,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
         pw,
         ph,
         hartley: (a, b) => model.hartleyTransform(a, b),
+        newGrid: () => model.newGrid(),
         amplitude: model.amplitude,
         // Wiener floor: the tapered power at 1.5 kc, so scales the coarse stage did not fit stay near 0
         floor: powerAt(spectrum, 1.5 * kc) * Math.exp(-(1.5 ** 2)),
@@ -782,16 +899,10 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     }
     // Stage 2: full spectrum.
     if (!options.diffuseOnly) updateSpectrum(kc / 2, null);
-    const residual = new Float64Array(m);
     for (let round = 1; round <= (options.diffuseOnly ? 0 : seedRounds); round++) {
       model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
       model.curvature(weight);
-      for (let y = 0; y < height; y++) {
-        for (let x = 0; x < width; x++) {
-          const i = y * width + x;
-          residual[i] = valid[i] ? data[i]! - model.modelPadded[y * pw + x]! : 0;
-        }
-      }
+      const residual = imageResidual(data, valid, model.modelPadded, width, height, pw);
       const psfSquared = psfSquaredConvolver();
       let seeds: ReturnType<typeof matchedFilterSeeds>;
       try {
@@ -804,6 +915,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
           weight,
           psf: model.psf,
           psfSquared,
+          precision: model.precision,
           snr: seedSnr,
         });
       } finally {
@@ -827,26 +939,22 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       runStage('final', { diffuse: true, compact: true }, absoluteDecrease, maxIterations, changeTolerance);
     }
 
-    // Components on the image grid.
     model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
-    const crop = (padded: RealArray): Float32Array => {
-      const out = new Float32Array(m);
+    // final binned power of the MAP field for the diagnostic plot
+    model.curvature(weight);
+    const sw = weightedSquares(model.s, weight, width, height, pw);
+    binned = binnedPower(k, model.phiHatInWorkspace(xi), power, model.transferPower, sw / n, 0.5);
+    // Components on the image grid. The model image and K ⊛ u go into the change test's arrays, which the fit
+    // no longer needs (at 4096² each image-sized float32 array is 67 MB).
+    const crop = (padded: RealArray, out = new Float32Array(m)): Float32Array => {
       for (let y = 0; y < height; y++) out.set(padded.subarray(y * pw, y * pw + width), y * width);
       return out;
     };
     const diffuseSky = crop(model.s);
-    const modelImage = crop(model.modelPadded);
+    const modelImage = crop(model.modelPadded, lastModel);
     const diffuse = crop(model.convolvedDiffuse());
-    const compactSky = Float32Array.from(tau, (t) => Math.exp(model.clipTau(t)));
-    const compact = new Float32Array(m);
-    for (let i = 0; i < m; i++) compact[i] = modelImage[i]! - diffuse[i]!;
-    // final binned power of the MAP field for the diagnostic plot (φ̂ in float32 is ample for a plot)
-    const phiHat = model.phiHat(xi, new Float32Array(n));
-    model.curvature(weight);
-    let sw = 0;
-    for (let y = 0; y < height; y++)
-      for (let x = 0; x < width; x++) sw += model.s[y * pw + x]! ** 2 * weight[y * width + x]!;
-    binned = binnedPower(k, phiHat, power, model.transferPower, sw / n, 0.5);
+    const compactSky = model.compactSky(tau);
+    const compact = difference(modelImage, diffuse, lastCompact);
 
     return {
       width,
@@ -870,7 +978,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       converged,
       trace,
       seedsPerRound,
-      logDiffusePadded: options.diffuseOnly ? Float64Array.from(model.s, Math.log) : null,
+      logDiffusePadded: options.diffuseOnly ? logOf(model.s) : null,
     };
   } finally {
     model.dispose();

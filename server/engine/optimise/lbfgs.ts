@@ -165,15 +165,39 @@ function negate(g: Float64Array, p: Float64Array): number {
   return d;
 }
 
-/** p = p + a·y; returns Σ s·p (the updated p). */
+/**
+ * p = p + a·y; returns Σ s·p (the updated p). The recursion's hot loop (2·(memory − 1) calls per iteration), so
+ * it keeps four partial sums (lanes i mod 4, added as (d0 + d1) + (d2 + d3)): with one running sum every
+ * addition waits for the last, and four ran 1.3–1.4× faster at 2·10⁴ to 3.5·10⁶ entries (measured here, one
+ * run each). The order is fixed, so the result stays deterministic.
+ */
 function axpyDot(p: Float64Array, a: number, y: Float32Array, s: Float32Array): number {
-  let d = 0;
-  for (let i = 0; i < p.length; i++) {
+  const n = p.length;
+  let d0 = 0;
+  let d1 = 0;
+  let d2 = 0;
+  let d3 = 0;
+  let i = 0;
+  for (; i + 3 < n; i += 4) {
+    const v0 = p[i]! + a * y[i]!;
+    const v1 = p[i + 1]! + a * y[i + 1]!;
+    const v2 = p[i + 2]! + a * y[i + 2]!;
+    const v3 = p[i + 3]! + a * y[i + 3]!;
+    p[i] = v0;
+    p[i + 1] = v1;
+    p[i + 2] = v2;
+    p[i + 3] = v3;
+    d0 += s[i]! * v0;
+    d1 += s[i + 1]! * v1;
+    d2 += s[i + 2]! * v2;
+    d3 += s[i + 3]! * v3;
+  }
+  for (; i < n; i++) {
     const v = p[i]! + a * y[i]!;
     p[i] = v;
-    d += s[i]! * v;
+    d0 += s[i]! * v;
   }
-  return d;
+  return d0 + d1 + (d2 + d3);
 }
 
 /** p = p + a·s; returns Σ g·p (the updated p): the last step of the second loop. */
@@ -407,8 +431,8 @@ export function minimiseLbfgs(
 
   while (iterations < o.maxIterations) {
     // Algorithm 7.4: two-loop recursion, p = −H g. Each pass over the vectors updates p and, in the same sweep,
-    // accumulates the dot product the next step needs (same products, same summation order as separate passes),
-    // so the recursion reads every stored vector once per loop instead of twice.
+    // accumulates the dot product the next step needs (the same products as separate passes), so the recursion
+    // reads every stored vector once per loop instead of twice.
     let dg0: number;
     if (stored === 0) {
       dg0 = negate(g, p);

@@ -269,7 +269,7 @@ export class SeparationModel {
     mu: number,
     tau: Float64Array,
     blocks: StageBlocks,
-    gXi: Float64Array | null,
+    gXi: RealArray | null,
     gTau: RealArray | null,
   ): [number, number] {
     this.evaluations++;
@@ -502,7 +502,7 @@ function productInto(a: RealArray, b: RealArray, out: RealArray): number {
 }
 
 /** g = A ⊙ g + ξ. */
-function amplitudeGradient(amplitude: Float32Array, g: Float64Array, xi: Float64Array): void {
+function amplitudeGradient(amplitude: Float32Array, g: RealArray, xi: Float64Array): void {
   for (let i = 0; i < g.length; i++) g[i] = amplitude[i]! * g[i]! + xi[i]!;
 }
 

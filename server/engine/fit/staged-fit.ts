@@ -33,7 +33,7 @@
  * Deterministic: no randomness anywhere; the same input and settings give the same numbers.
  */
 import { createConvolver, goodFftSize, type Convolver, type RealArray } from '../fft';
-import { minimiseLbfgs } from '../optimise/lbfgs';
+import { LbfgsWorkspace, minimiseLbfgs } from '../optimise/lbfgs';
 import { psfFwhmPx, psfKernelOnGrid, type Psf } from '../psf';
 import { SeparationModel, type StageBlocks } from './model';
 import { matchedFilterSeeds } from './seed-points';
@@ -705,8 +705,10 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       return rmsChange(model.modelPadded, compactPadded, lastModel, lastCompact, weight, width, height, pw);
     };
 
-    let gXi: Float64Array | null = null;
+    let gXi: RealArray | null = null;
     let gTau: RealArray | null = null;
+    // the optimiser's vectors, kept from stage to stage (optimise/lbfgs.ts LbfgsWorkspace)
+    const lbfgsWorkspace = new LbfgsWorkspace();
     const runStage = (
       stage: string,
       blocks: StageBlocks,
@@ -751,8 +753,8 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       const tau0 = active ? gatherAt(tau, active) : new Float64Array(0);
       model.fixCompact(tau, active ?? new Int32Array(0));
       // (allocated once for all stages: a padded float64 grid left to the collector per stage measurably raised
-      // the peak; gTau is float32 with the float32 objective, which computes it from float32 transforms)
-      const gradXi = blocks.diffuse ? (gXi ??= new Float64Array(n)) : null;
+      // the peak; both are float32 with the float32 objective, which computes them from float32 transforms)
+      const gradXi = blocks.diffuse ? (gXi ??= model.newGrid()) : null;
       const gradTau = blocks.compact
         ? (gTau ??= model.precision === 'float32' ? new Float32Array(m) : new Float64Array(m))
         : null;
@@ -782,6 +784,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
           stallIterations: 3,
           gradientTolerance: 1e-6,
           signal,
+          workspace: lbfgsWorkspace,
           stopWhen: (p) => p.iteration % changeWindow === 0 && changeSinceLastCheck() < stageChangeTolerance,
           onProgress: (p) => {
             const entry = {

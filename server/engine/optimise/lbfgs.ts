@@ -62,6 +62,39 @@ export interface LbfgsOptions {
   stopWhen?: (progress: LbfgsProgress, x: Float64Array) => boolean;
   /** Cancels the run: the next evaluation throws the signal's reason. */
   signal?: AbortSignal;
+  /** Buffers to take the run's vectors from and to leave for the next run (LbfgsWorkspace). */
+  workspace?: LbfgsWorkspace;
+}
+
+/**
+ * The vectors of minimiseLbfgs runs made one after another (a staged fit's stages), kept between them: the
+ * iterate, the gradient, the direction, the line search's trial point and gradient, and the correction pairs.
+ * Without it every run allocates them anew and leaves the last run's to the collector, which at 4096² (3.5·10⁶
+ * variables) is about 0.4 GB alive twice over. A run of n variables uses the first n entries of each buffer;
+ * a buffer grows (is replaced) when a run needs more. The result's x and grad are views into the buffers,
+ * valid until the next run with the same workspace.
+ */
+export class LbfgsWorkspace {
+  private readonly doubles: Float64Array[] = [];
+  private readonly singles: Float32Array[] = [];
+
+  /** Buffer `slot` as n float64 entries (contents undefined). */
+  float64(slot: number, n: number): Float64Array {
+    const have = this.doubles[slot];
+    if (have && have.length >= n) return have.subarray(0, n);
+    const fresh = new Float64Array(n);
+    this.doubles[slot] = fresh;
+    return fresh;
+  }
+
+  /** Buffer `slot` as n float32 entries (contents undefined). */
+  float32(slot: number, n: number): Float32Array {
+    const have = this.singles[slot];
+    if (have && have.length >= n) return have.subarray(0, n);
+    const fresh = new Float32Array(n);
+    this.singles[slot] = fresh;
+    return fresh;
+  }
 }
 
 export type LbfgsReason =
@@ -85,7 +118,7 @@ export interface LbfgsResult {
   reason: LbfgsReason;
 }
 
-type ResolvedOptions = Required<Omit<LbfgsOptions, 'onProgress' | 'signal' | 'stopWhen'>> &
+type ResolvedOptions = Required<Omit<LbfgsOptions, 'onProgress' | 'signal' | 'stopWhen' | 'workspace'>> &
   Pick<LbfgsOptions, 'onProgress' | 'signal' | 'stopWhen'>;
 
 function isPositiveInteger(v: number): boolean {
@@ -380,24 +413,26 @@ export function minimiseLbfgs(
   const n = x0.length;
   if (n === 0) throw new Error('L-BFGS needs at least one variable');
   const m = o.memory;
-  // Workspaces, allocated once: the iterate and its gradient swap places with the line search's trial point
-  // instead of being copied.
-  let x: Float64Array = Float64Array.from(x0);
-  let g: Float64Array = new Float64Array(n);
-  const p = new Float64Array(n);
+  // Workspaces, allocated once per run (or taken from options.workspace): the iterate and its gradient swap
+  // places with the line search's trial point instead of being copied.
+  const space = options.workspace ?? new LbfgsWorkspace();
+  let x: Float64Array = space.float64(0, n);
+  x.set(x0);
+  let g: Float64Array = space.float64(1, n).fill(0);
+  const p = space.float64(2, n);
   // The correction pairs are kept in single precision: they only shape the search direction (the iterate, the
   // gradient and every dot product stay in double), and the two-loop recursion over them is limited by memory
   // bandwidth at 10⁶ variables, so half the bytes is nearly half the time.
-  const sHist = Array.from({ length: m }, () => new Float32Array(n));
-  const yHist = Array.from({ length: m }, () => new Float32Array(n));
+  const sHist = Array.from({ length: m }, (_, j) => space.float32(j, n));
+  const yHist = Array.from({ length: m }, (_, j) => space.float32(m + j, n));
   const rho = new Float64Array(m);
   /** yᵀy of each stored pair (for γ), computed once when the pair is stored. */
   const yyHist = new Float64Array(m);
   const alphaHist = new Float64Array(m);
   const sums = new Float64Array(4);
   const state: LineSearchState = {
-    xNew: new Float64Array(n),
-    gNew: new Float64Array(n),
+    xNew: space.float64(3, n),
+    gNew: space.float64(4, n).fill(0),
     fNew: 0,
     alpha: 0,
     evaluations: 0,

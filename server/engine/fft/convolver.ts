@@ -32,7 +32,7 @@ export interface Convolver {
 export function createConvolver(
   width: number,
   height: number,
-  kernel: Float64Array,
+  kernel: RealArray,
   options: TransformOptions = {},
 ): Convolver {
   const fft = transformFor(width, height, options);
@@ -62,7 +62,7 @@ class FftConvolver implements Convolver {
 
   constructor(
     private readonly fft: RealFft2d,
-    kernel: Float64Array,
+    kernel: RealArray,
     private readonly ownsFft: boolean,
   ) {
     this.width = fft.width;
@@ -81,7 +81,7 @@ class FftConvolver implements Convolver {
     }
     ({ re: this.re, im: this.im } = scratchSpectrum(fft));
     this.kernelRe = new Float64Array(fft.spectrumWidth * fft.height);
-    fft.forward(kernel, this.kernelRe, this.im);
+    fft.forward(asFloat64(kernel, 'the convolution kernel of a float64 transform'), this.kernelRe, this.im);
     this.kernelIm = symmetric ? null : this.im.slice();
   }
 
@@ -127,7 +127,7 @@ class FftConvolver implements Convolver {
 const WHAT = 'this convolution';
 
 /** k(−x, −y) on the periodic grid: its spectrum is conj K, so convolving with it is the adjoint. */
-function mirrored(kernel: Float64Array, width: number, height: number): Float64Array {
+function mirrored(kernel: RealArray, width: number, height: number): Float64Array {
   const out = new Float64Array(kernel.length);
   for (let y = 0; y < height; y++) {
     const my = (height - y) % height;
@@ -137,7 +137,7 @@ function mirrored(kernel: Float64Array, width: number, height: number): Float64A
 }
 
 /** True when k(−x, −y) = k(x, y) exactly on the periodic grid. */
-function isCentroSymmetric(kernel: Float64Array, width: number, height: number): boolean {
+function isCentroSymmetric(kernel: RealArray, width: number, height: number): boolean {
   for (let y = 0; y < height; y++) {
     const my = (height - y) % height;
     for (let x = 0; x < width; x++) {

@@ -159,7 +159,7 @@ class PffftFused implements FusedTransforms {
     core.hartleyColumns(rows, output, 1 / Math.sqrt(n), shift * n, 0, core.spectrumWidth);
   }
 
-  kernel(kernel: Float64Array): FusedKernel {
+  kernel(kernel: RealArray): FusedKernel {
     const { width, height, core, rows } = this;
     checkLength(kernel, width * height, 'convolution kernel');
     const spectrum = new PffftKernel(core.spectrumWidth * 2 * height, kernel);
@@ -189,7 +189,7 @@ class PffftKernel implements FusedKernel {
 
   constructor(
     readonly floats: number,
-    kernel: Float64Array,
+    kernel: RealArray,
   ) {
     this.pointer = pffft._pffft_aligned_malloc(floats * Float32Array.BYTES_PER_ELEMENT);
     if (this.pointer === 0) throw new RangeError(`no WASM memory for a kernel spectrum of ${floats} floats`);

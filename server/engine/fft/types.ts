@@ -57,7 +57,7 @@ export interface FusedTransforms {
    *  convolve. */
   hartley(input: RealArray, output: RealArray, shift?: number): void;
   /** The spectrum of a kernel (width·height, centred at (0, 0)) for convolve. */
-  kernel(kernel: Float64Array): FusedKernel;
+  kernel(kernel: RealArray): FusedKernel;
   /**
    * out = kernel ⊛ x (circular); x and out may be the same array. `shift` is taken out of x before rounding to
    * float32 and put back exactly: the mean of x when omitted (one more pass over x); a caller that knows x has

@@ -104,6 +104,8 @@ export class SeparationModel {
   /** u = exp(clip τ) on the padded grid (0 in the padding): of the last evaluation at the free pixels, of the
    *  last fixCompact call at the others. */
   private readonly uPadded: RealArray;
+  /** uPadded was lent out as scratch (scratchGrids): zeroed before its next use. */
+  private uDirty = false;
   /** Free compact pixels (image-grid indices) after fixCompact; null = every pixel is recomputed. */
   private active: Int32Array | null = null;
   /** Σ (α τ + q e^(−τ)) over the pixels fixCompact held fixed. */
@@ -180,6 +182,20 @@ export class SeparationModel {
     return this.precision === 'float32' ? new Float32Array(this.n) : new Float64Array(this.n);
   }
 
+  /**
+   * The model's four padded workspaces as scratch for a pass between evaluations (seeding, the start): their
+   * contents are lost, s, modelPadded and the compact field of the last evaluation with them, so the model's
+   * next use must be an evaluate. Only while no compact pixels are held (fixCompact(…, null)), since the held
+   * pixels' u lives in one of them.
+   */
+  scratchGrids(): [RealArray, RealArray, RealArray, RealArray] {
+    if (this.active !== null)
+      throw new Error('SeparationModel: no scratch grids while compact pixels are held');
+    // u is 0 in the padding, and evaluate only rewrites the image part: cleared again at the next use
+    this.uDirty = true;
+    return [this.work, this.uPadded, this.modelPadded, this.s];
+  }
+
   /** φ̂ = A ⊙ ξ in the model's workspace (valid until the next evaluate or workspace call). */
   phiHatInWorkspace(xi: Float64Array): RealArray {
     return this.phiHat(xi, this.work);
@@ -202,6 +218,7 @@ export class SeparationModel {
   fixCompact(tau: Float64Array, active: Int32Array | null): void {
     const { width, height, pw } = this;
     const { alpha, q } = this.setup;
+    this.cleanU();
     const free = new Uint8Array(this.m);
     if (active) for (const i of active) free[i] = 1;
     let prior = 0;
@@ -216,6 +233,13 @@ export class SeparationModel {
     }
     this.active = active;
     this.priorFixed = active ? prior : 0;
+  }
+
+  /** Zeroes uPadded after it was lent out as scratch (its padding must be 0). */
+  private cleanU(): void {
+    if (!this.uDirty) return;
+    this.uPadded.fill(0);
+    this.uDirty = false;
   }
 
   clipTau(t: number): number {
@@ -277,6 +301,7 @@ export class SeparationModel {
     const { data, valid, noise, alpha, q } = this.setup;
     const uPadded = this.uPadded;
     const active = this.active;
+    this.cleanU();
     // compact: u at the free pixels (all of them unless fixCompact chose some) and its prior
     let prior = this.priorFixed;
     if (active) {

@@ -25,6 +25,8 @@ export interface SeedInput {
   psfSquared: Convolver;
   /** the arithmetic of both convolvers: their padded grids are float32 arrays for float32 transforms */
   precision: FftPrecision;
+  /** Two padded grids of that type to work in (overwritten), and an image-sized one; allocated when absent. */
+  scratch?: { num: RealArray; den: RealArray; ratio: Float32Array };
   snr: number;
 }
 
@@ -39,8 +41,8 @@ export function matchedFilterSeeds(input: SeedInput): Seed[] {
   // float32 maps with float32 transforms, and F̂/σ_F in float32 (it only picks the maxima; a seed's F̂ and
   // F̂/σ_F are computed at them): at 4096² the four float64 maps took about 0.7 GiB
   const Grid = input.precision === 'float32' ? Float32Array : Float64Array;
-  const num = new Grid(pw * ph);
-  const den = new Grid(pw * ph);
+  const num = input.scratch?.num.fill(0) ?? new Grid(pw * ph);
+  const den = input.scratch?.den.fill(0) ?? new Grid(pw * ph);
   for (let y = 0; y < height; y++) {
     for (let x = 0; x < width; x++) {
       const i = y * width + x;
@@ -50,7 +52,7 @@ export function matchedFilterSeeds(input: SeedInput): Seed[] {
   }
   psf.adjoint(num, num);
   psfSquared.adjoint(den, den);
-  const ratio = new Float32Array(width * height).fill(-Infinity);
+  const ratio = (input.scratch?.ratio ?? new Float32Array(width * height)).fill(-Infinity);
   let maxDen = 0;
   for (let i = 0; i < den.length; i++) maxDen = Math.max(maxDen, den[i]!);
   for (let y = 0; y < height; y++) {

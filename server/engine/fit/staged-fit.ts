@@ -357,8 +357,8 @@ function upsampledStart(
     pw: number;
     ph: number;
     hartley: (input: RealArray, output: RealArray) => void;
-    /** a new padded-grid array for the transform (SeparationModel.newGrid) */
-    newGrid: () => RealArray;
+    /** two padded grids of the transform's type to work in (SeparationModel.scratchGrids) */
+    scratch: [RealArray, RealArray];
     amplitude: ModeGrid;
     floor: number;
   },
@@ -367,7 +367,7 @@ function upsampledStart(
   const cw = coarse.paddedWidth;
   const chh = coarse.paddedHeight;
   const phiC = coarse.logDiffusePadded!;
-  const phi = grid.newGrid();
+  const [phi, hat] = grid.scratch;
   const ln4 = Math.log(4);
   let mean = 0;
   for (let y = 0; y < ph; y++) {
@@ -392,7 +392,6 @@ function upsampledStart(
   }
   mean /= pw * ph;
   for (let i = 0; i < phi.length; i++) phi[i] = phi[i]! - mean;
-  const hat = grid.newGrid();
   grid.hartley(phi, hat);
   for (let i = 0; i < hat.length; i++) {
     const a = grid.amplitude[i]!;
@@ -451,8 +450,10 @@ function boxLogVariance(b: BoxStart): number {
  *  (out zeroed on entry; separable box sums). */
 function boxSmoothedLog(b: BoxStart, mu: number, out: RealArray, pw: number): RealArray {
   const { data, valid, width, height, r } = b;
-  const rowSum = new Float64Array(width * height);
-  const rowCount = new Float64Array(width * height);
+  // (float32: the start needs a few digits, counts below 2²⁴ are exact, and at 4096² the two float64 maps were
+  // 0.27 GB)
+  const rowSum = new Float32Array(width * height);
+  const rowCount = new Float32Array(width * height);
   for (let y = 0; y < height; y++) {
     for (let x = 0; x < width; x++) {
       let sum = 0;
@@ -510,7 +511,7 @@ function weightedSquares(
   return sw;
 }
 
-/** d − model at the valid pixels of the image part of a padded model, 0 at the others (float32). */
+/** d − model at the valid pixels of the image part of a padded model, 0 at the others, into out. */
 function imageResidual(
   data: Float64Array,
   valid: Uint8Array,
@@ -518,8 +519,8 @@ function imageResidual(
   width: number,
   height: number,
   pw: number,
+  out: Float32Array,
 ): Float32Array {
-  const out = new Float32Array(width * height);
   for (let y = 0; y < height; y++) {
     for (let x = 0; x < width; x++) {
       const i = y * width + x;
@@ -633,8 +634,8 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
   // eslint-disable-next-line no-useless-assignment
   kernel = null;
   /** K² ⊛ for the matched filter of a seeding round, built for the round and disposed after it. */
-  const psfSquaredConvolver = (): Convolver => {
-    const squared = psfKernelOnGrid(psf, pw, ph);
+  const psfSquaredConvolver = (grid: RealArray): Convolver => {
+    const squared = psfKernelOnGrid(psf, pw, ph, grid);
     for (let i = 0; i < squared.length; i++) squared[i] = squared[i]! * squared[i]!;
     return createConvolver(pw, ph, squared, { fft: model.fft });
   };
@@ -672,8 +673,9 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     // φ0 (σ/((2r+1)·level))² for a (2r+1)² box (the standard Wiener filter for white noise).
     const xi = new Float64Array(n);
     {
-      const hat = model.newGrid();
-      model.hartleyTransform(boxSmoothedLog(box, mu, model.newGrid(), pw), hat);
+      // (in the model's grids: nothing has been evaluated yet)
+      const [phi0, hat] = model.scratchGrids();
+      model.hartleyTransform(boxSmoothedLog(box, mu, phi0.fill(0), pw), hat);
       const nu = (sigmaTypical / ((2 * box.r + 1) * level)) ** 2;
       wienerFilter(powerLawSpectrum(k, spectrum, kc, power), hat, nu, xi);
     }
@@ -877,7 +879,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
         pw,
         ph,
         hartley: (a, b) => model.hartleyTransform(a, b),
-        newGrid: () => model.newGrid(),
+        scratch: model.scratchGrids().slice(0, 2) as [RealArray, RealArray],
         amplitude: model.amplitude,
         // Wiener floor: the tapered power at 1.5 kc, so scales the coarse stage did not fit stay near 0
         floor: powerAt(spectrum, 1.5 * kc) * Math.exp(-(1.5 ** 2)),
@@ -905,8 +907,12 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     for (let round = 1; round <= (options.diffuseOnly ? 0 : seedRounds); round++) {
       model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
       model.curvature(weight);
-      const residual = imageResidual(data, valid, model.modelPadded, width, height, pw);
-      const psfSquared = psfSquaredConvolver();
+      // The round works in the model's padded grids and the change test's image arrays, all rewritten before
+      // they are read again (runStage starts with an evaluation and a change check): at 4096² its maps and the
+      // K² kernel were about 0.55 GB per round left to the collector, whose timing then set the peak.
+      const residual = imageResidual(data, valid, model.modelPadded, width, height, pw, lastModel);
+      const [num, den, kernelGrid] = model.scratchGrids();
+      const psfSquared = psfSquaredConvolver(kernelGrid);
       let seeds: ReturnType<typeof matchedFilterSeeds>;
       try {
         seeds = matchedFilterSeeds({
@@ -919,6 +925,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
           psf: model.psf,
           psfSquared,
           precision: model.precision,
+          scratch: { num, den, ratio: lastCompact },
           snr: seedSnr,
         });
       } finally {

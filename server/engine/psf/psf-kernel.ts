@@ -7,11 +7,27 @@
 import type { Psf } from './psf';
 import { psfStamp, psfStampHalfSize } from './psf-stamp';
 
-export function psfKernelOnGrid(psf: Psf, width: number, height: number): Float64Array {
+export function psfKernelOnGrid(psf: Psf, width: number, height: number): Float64Array;
+/** The same into `out` (width·height entries, overwritten): e.g. a float32 scratch grid. */
+export function psfKernelOnGrid<T extends Float32Array | Float64Array>(
+  psf: Psf,
+  width: number,
+  height: number,
+  out: T,
+): T;
+export function psfKernelOnGrid(
+  psf: Psf,
+  width: number,
+  height: number,
+  out?: Float32Array | Float64Array,
+): Float32Array | Float64Array {
   if (!Number.isInteger(width) || !Number.isInteger(height) || width < 1 || height < 1) {
     throw new Error(`PSF kernel grid must have whole-number positive sides (got ${width} × ${height})`);
   }
-  const kernel = new Float64Array(width * height);
+  if (out && out.length !== width * height) {
+    throw new Error(`PSF kernel grid: ${out.length} entries given for ${width} × ${height}`);
+  }
+  const kernel = out ? out.fill(0) : new Float64Array(width * height);
   const wrap = (i: number, n: number): number => ((i % n) + n) % n;
   if (psf.kind === 'image') {
     for (let y = 0; y < psf.height; y++) {

@@ -157,6 +157,31 @@ describe('createRealFft2d (float32)', () => {
     fft.dispose();
   });
 
+  it('takes a float32 kernel on the fused path and refuses one on a float64 transform', () => {
+    // the seeding round builds its K² kernel in a float32 grid of the model (staged-fit.ts)
+    const width = 64,
+      height = 48,
+      n = width * height;
+    const x = randomArray(n, 31, 10);
+    const kernel = Float32Array.from(randomArray(n, 32), (v, i) => (i % 5 === 0 ? Math.abs(v) : 0));
+    const fft = createRealFft2d(width, height, { precision: 'float32' });
+    const conv = createConvolver(width, height, kernel, { fft });
+    for (const adjoint of [false, true]) {
+      const got = new Float64Array(n);
+      if (adjoint) conv.adjoint(x, got);
+      else conv.apply(x, got);
+      const want = naiveConvolve(Float64Array.from(kernel), x, width, height, adjoint);
+      expect(maxAbsDifference(got, want).value / maxAbs(want), adjoint ? 'adjoint' : 'apply').toBeLessThan(
+        2e-6,
+      );
+    }
+    conv.dispose();
+    fft.dispose();
+    expect(() => createConvolver(width, height, kernel, { precision: 'float64' })).toThrow(
+      /float64 transform takes float64 grids only/,
+    );
+  });
+
   it('has no fused paths with a second thread, and refuses a kernel spectrum of another grid', () => {
     const threaded = createRealFft2d(512, 512, { precision: 'float32', threads: 2 });
     expect(threaded.fused).toBeUndefined();

@@ -358,6 +358,17 @@ describe('psfFromImage', () => {
 });
 
 describe('psfKernelOnGrid', () => {
+  it('writes the same kernel into a given float32 grid, and refuses one of the wrong size', () => {
+    const psf = psfFromFwhm(3.2, 2.1, 35);
+    const want = psfKernelOnGrid(psf, 40, 24);
+    const out = new Float32Array(40 * 24).fill(7); // overwritten, not added to
+    expect(psfKernelOnGrid(psf, 40, 24, out)).toBe(out);
+    let worst = 0;
+    for (let i = 0; i < out.length; i++) worst = Math.max(worst, Math.abs(out[i]! - want[i]!));
+    expect(worst).toBeLessThan(1e-7); // float32 rounding of values ≤ 1
+    expect(() => psfKernelOnGrid(psf, 40, 24, new Float32Array(10))).toThrow(/10 entries given for 40 × 24/);
+  });
+
   it('is centred at (0, 0) with wrap-around, symmetric and unit-sum', () => {
     const psf = psfFromFwhm(3, 3, 0);
     const w = 32;

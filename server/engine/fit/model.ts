@@ -104,6 +104,8 @@ export class SeparationModel {
   /** u = exp(clip τ) on the padded grid (0 in the padding): of the last evaluation at the free pixels, of the
    *  last fixCompact call at the others. */
   private readonly uPadded: RealArray;
+  /** fixCompact's mask of the free pixels, kept between calls. */
+  private freeMask: Uint8Array | null = null;
   /** uPadded was lent out as scratch (scratchGrids): zeroed before its next use. */
   private uDirty = false;
   /** Free compact pixels (image-grid indices) after fixCompact; null = every pixel is recomputed. */
@@ -219,7 +221,7 @@ export class SeparationModel {
     const { width, height, pw } = this;
     const { alpha, q } = this.setup;
     this.cleanU();
-    const free = new Uint8Array(this.m);
+    const free = (this.freeMask ??= new Uint8Array(this.m)).fill(0);
     if (active) for (const i of active) free[i] = 1;
     let prior = 0;
     for (let y = 0; y < height; y++) {

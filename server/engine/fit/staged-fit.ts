@@ -184,11 +184,10 @@ function logOf(values: RealArray): Float64Array {
   return out;
 }
 
-/** values[free[j]] for each j, as a new array. (A loop: TypedArray.from with a map function first lists the
- *  values as JS numbers, which at 4096² took ~10× the time and several times the memory, measured.) */
-function gatherAt(values: Float64Array, free: Int32Array): Float64Array {
-  const out = new Float64Array(free.length);
-  for (let j = 0; j < free.length; j++) out[j] = values[free[j]!]!;
+/** out[j] = values[free[j]] for each j (none when free is null). (A loop: TypedArray.from with a map function
+ *  first lists the values as JS numbers, which at 4096² took ~10× the time and several times the memory.) */
+function gatherAt(values: Float64Array, free: Int32Array | null, out: Float64Array): Float64Array {
+  if (free) for (let j = 0; j < free.length; j++) out[j] = values[free[j]!]!;
   return out;
 }
 
@@ -709,8 +708,10 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
 
     let gXi: RealArray | null = null;
     let gTau: RealArray | null = null;
-    // the optimiser's vectors, kept from stage to stage (optimise/lbfgs.ts LbfgsWorkspace)
+    // the optimiser's vectors, and the stages' own (scaling, start values, start point), kept from stage to
+    // stage (optimise/lbfgs.ts LbfgsWorkspace) and dropped before the components are made
     const lbfgsWorkspace = new LbfgsWorkspace();
+    const stageVectors = new LbfgsWorkspace();
     const runStage = (
       stage: string,
       blocks: StageBlocks,
@@ -734,7 +735,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       // on with, so the others would only make every L-BFGS vector longer).
       const active = blocks.compact ? activeCompactPixels(tau, pedestal, activeRadius, width, height) : null;
       const nCompact = active ? active.length : 0;
-      const d = new Float64Array(nDiffuse + nCompact);
+      const d = stageVectors.float64(0, nDiffuse + nCompact);
 
       if (modes) {
         for (let j = 0; j < nModes; j++) {
@@ -750,9 +751,9 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
           d[nDiffuse + j] = 1 / Math.sqrt(1 + u * u * sumK2 * weight[i]! + q / u);
         }
       }
-      const xi0 = modes ? gatherAt(xi, modes) : new Float64Array(0);
+      const xi0 = gatherAt(xi, modes, stageVectors.float64(1, nModes));
       const mu0 = mu;
-      const tau0 = active ? gatherAt(tau, active) : new Float64Array(0);
+      const tau0 = gatherAt(tau, active, stageVectors.float64(2, nCompact));
       model.fixCompact(tau, active ?? new Int32Array(0));
       // (allocated once for all stages: a padded float64 grid left to the collector per stage measurably raised
       // the peak; both are float32 with the float32 objective, which computes them from float32 transforms)
@@ -778,7 +779,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
           if (active && gradTau) gatherScaled(g, d, gradTau, nDiffuse, active);
           return f;
         },
-        new Float64Array(d.length),
+        stageVectors.float64(3, d.length).fill(0),
         {
           maxIterations: stageIterations,
           maxEvaluations: 3 * stageIterations,
@@ -948,6 +949,11 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     if (!options.diffuseOnly) {
       runStage('final', { diffuse: true, compact: true }, absoluteDecrease, maxIterations, changeTolerance);
     }
+    // The stages' vectors go to the collector before the components are made (at 4096² about 0.5 GB).
+    lbfgsWorkspace.release();
+    stageVectors.release();
+    gXi = null;
+    gTau = null;
 
     model.evaluate(xi, mu, tau, { diffuse: false, compact: false }, null, null);
     // final binned power of the MAP field for the diagnostic plot

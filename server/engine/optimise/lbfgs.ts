@@ -87,6 +87,12 @@ export class LbfgsWorkspace {
     return fresh;
   }
 
+  /** Drops every buffer (for the collector; the workspace can be used again). */
+  release(): void {
+    this.doubles.length = 0;
+    this.singles.length = 0;
+  }
+
   /** Buffer `slot` as n float32 entries (contents undefined). */
   float32(slot: number, n: number): Float32Array {
     const have = this.singles[slot];

@@ -96,7 +96,8 @@ function separationTable(rows: readonly SeparationBenchRow[]): string {
   const lines = [
     'Whole separation (server/engine/separate.ts) on synthetic skies (samples/sky-simulator.ts, 3.5-pixel PSF,',
     'diffuse ~5σ, one source per 2000 pixels); each size in its own process. Time per evaluation = fit time /',
-    'evaluations / (FFT pair at the padded size, same process, the transform the fit uses). Evaluations: on the',
+    'evaluations / (FFT pair at the padded size, timed right after each run, the transform the fit uses), median',
+    'over the runs; the FFT pair column is the median of those pairs. Evaluations: on the',
     'padded grid + those of the coarse start on the 2×2-binned image; the latter count at their grid share',
     '(coarse padded pixels / padded pixels, about ¼) in the time per evaluation. Peak RSS: sampled from the',
     'start of the first separation (the sky is simulated before, in a worker); maxRSS: the whole process,',
@@ -107,8 +108,8 @@ function separationTable(rows: readonly SeparationBenchRow[]): string {
   ];
   for (const r of rows) {
     const fit = median(r.fitSeconds);
-    const equivalent = r.evaluations + r.coarseEvaluations * r.coarseShare;
-    const pairsPerEvaluation = (fit * 1000) / equivalent / r.fftPairMs;
+    // the median over the runs of each run's own ratio (separate-one.ts times a pair right after every run)
+    const pairsPerEvaluation = median(r.pairsPerEvaluationByRun);
     lines.push(
       `| ${r.size}² | ${r.paddedWidth}×${r.paddedHeight} | ${r.repeat} | ${median(r.wallSeconds).toFixed(1)} | ${fit.toFixed(1)} | ` +
         `${r.iterations} | ${r.evaluations} (+ ${r.coarseEvaluations}) | ${r.sources} | ${r.converged ? 'yes' : 'no'} | ${r.fftPairMs.toFixed(1)} (${r.fftImplementation}) | ` +

@@ -6,12 +6,12 @@
  * one point source per 2000 pixels from SNR 3 to 300, Gaussian noise, fixed seed.
  */
 import { createRealFft2d, supportsFloat32 } from '../engine/fft';
-import { separate } from '../engine/separate';
+import { separate, type SeparationResult } from '../engine/separate';
 import { isolatedFluxError, type SkySimulationOptions } from '../../samples/sky-simulator';
 import { startTypeScriptWorker } from '../engine/threads/start-typescript-worker';
 import { psfFromFwhm } from '../engine/psf';
 import { MemorySampler } from './memory-sampler';
-import { nowMs } from './stats';
+import { median, nowMs } from './stats';
 import { timeFftPair } from './fft';
 
 export interface SeparationBenchRow {
@@ -29,7 +29,10 @@ export interface SeparationBenchRow {
   sources: number;
   converged: boolean;
   fftImplementation: string;
+  /** Median over the runs of the pair timed right after each. */
   fftPairMs: number;
+  /** Per run: its fit time / equivalent evaluations / the pair timed right after it. */
+  pairsPerEvaluationByRun: number[];
   peakRssBytes: number;
   maxRssBytes: number;
   baselineRssBytes: number;
@@ -82,22 +85,42 @@ const settings = { psf: { fwhmMajor: fwhm, fwhmMinor: fwhm, pa: 0 } };
 const wall: number[] = [];
 const fit: number[] = [];
 let last: Awaited<ReturnType<typeof separate>> | null = null;
+let peakRssBytes = 0;
+let maxRssBytes = 0;
+// The FFT pair at the padded size with the transform the fit uses (float32 PFFFT where the grid allows it,
+// staged-fit.ts `precision`), timed in this process right after every separation: this machine's speed drifts
+// by tens of per cent within minutes, so each run's time per evaluation is divided by a pair of its own moment
+// (about 0.2 s of pairs at 256² and 2 s from 512² up).
+const pairMs: number[] = [];
+const pairsPerEvaluationByRun: number[] = [];
+let fftImplementation = '';
+/** Objective evaluations in fine-grid units: the coarse start's count as their share of the padded pixels. */
+const coarseShareOf = (r: SeparationResult): number =>
+  r.coarseStart
+    ? (r.coarseStart.paddedSize.width * r.coarseStart.paddedSize.height) /
+      (r.paddedSize.width * r.paddedSize.height)
+    : 0;
+const equivalentEvaluations = (r: SeparationResult): number =>
+  r.evaluations + (r.coarseStart?.evaluations ?? 0) * coarseShareOf(r);
 for (let i = 0; i < repeat; i++) {
   const t0 = nowMs();
   last = await separate(image, settings);
   wall.push((nowMs() - t0) / 1000);
   fit.push(last.timings.fit / 1000);
+  if (i === 0) {
+    // the separation's peak, read before the FFT pair allocates its own spectra
+    peakRssBytes = sampler.peakBytes;
+    maxRssBytes = process.resourceUsage().maxRSS * 1024;
+  }
+  const { width: pw, height: ph } = last.paddedSize;
+  const fft = createRealFft2d(pw, ph, { precision: supportsFloat32(pw, ph) ? 'float32' : 'float64' });
+  const pair = timeFftPair(fft, Math.max(5, Math.min(100, Math.round(3e7 / (size * size)))));
+  fftImplementation = fft.implementation;
+  fft.dispose();
+  pairMs.push(pair.medianMs);
+  pairsPerEvaluationByRun.push(last.timings.fit / equivalentEvaluations(last) / pair.medianMs);
 }
 const result = last!;
-// The separation's peak, read before the FFT pair below allocates its own spectra.
-const peakRssBytes = sampler.peakBytes;
-const maxRssBytes = process.resourceUsage().maxRSS * 1024;
-// The FFT pair at the padded size with the transform the fit uses (float32 PFFFT where the grid allows it,
-// staged-fit.ts `precision`), in this process.
-const { width: pw, height: ph } = result.paddedSize;
-const fft = createRealFft2d(pw, ph, { precision: supportsFloat32(pw, ph) ? 'float32' : 'float64' });
-const pair = timeFftPair(fft, Math.max(5, Math.min(15, Math.round(2e7 / (size * size)))));
-fft.dispose();
 const row: SeparationBenchRow = {
   size,
   repeat,
@@ -108,13 +131,12 @@ const row: SeparationBenchRow = {
   iterations: result.iterations,
   evaluations: result.evaluations,
   coarseEvaluations: result.coarseStart?.evaluations ?? 0,
-  coarseShare: result.coarseStart
-    ? (result.coarseStart.paddedSize.width * result.coarseStart.paddedSize.height) / (pw * ph)
-    : 0,
+  coarseShare: coarseShareOf(result),
   sources: result.catalogue.length,
   converged: result.converged,
-  fftImplementation: fft.implementation,
-  fftPairMs: pair.medianMs,
+  fftImplementation,
+  fftPairMs: median(pairMs),
+  pairsPerEvaluationByRun,
   peakRssBytes,
   maxRssBytes,
   baselineRssBytes,

@@ -393,10 +393,7 @@ function upsampledStart(
   mean /= pw * ph;
   for (let i = 0; i < phi.length; i++) phi[i] = phi[i]! - mean;
   grid.hartley(phi, hat);
-  for (let i = 0; i < hat.length; i++) {
-    const a = grid.amplitude[i]!;
-    xi[i] = a > 0 ? (a * hat[i]!) / (a * a + grid.floor) : 0;
-  }
+  wienerFilter(grid.amplitude, hat, grid.floor, xi);
   return mean;
 }
 
@@ -483,10 +480,10 @@ function boxSmoothedLog(b: BoxStart, mu: number, out: RealArray, pw: number): Re
   return out;
 }
 
-/** ξ_k = A_k ĥ_k / (A_k² + ν) with A_k = √P_k: the Wiener filter for white noise of per-mode variance ν. */
-function wienerFilter(power: ModeGrid, hat: RealArray, nu: number, xi: Float64Array): void {
+/** ξ_k = A_k ĥ_k / (A_k² + ν), 0 where A_k = 0: the Wiener filter for white noise of per-mode variance ν. */
+function wienerFilter(amplitude: ModeGrid, hat: RealArray, nu: number, xi: Float64Array): void {
   for (let i = 0; i < xi.length; i++) {
-    const a = Math.sqrt(power[i]!);
+    const a = amplitude[i]!;
     xi[i] = a > 0 ? (a * hat[i]!) / (a * a + nu) : 0;
   }
 }
@@ -659,24 +656,8 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       pedestal,
       floor: Math.max(0.3 * sigmaTypical, 0.1 * level),
     };
-    const varLog = boxLogVariance(box);
     let spectrum: SpectrumParameters = { amplitude: 1, slope: options.spectrum?.slope ?? 3, turnover };
-    // amplitude so that the mean of P_k over the modes (the pointwise variance of φ) is the measured variance
-    spectrum.amplitude =
-      options.spectrum?.amplitude ??
-      Math.max(varLog, 0.01) / meanOf(powerLawSpectrum(k, spectrum, null, power));
-
-    // Start for ξ: a Wiener-filtered log of the box-smoothed data, so the first stage begins near the large
-    // scales of the answer: ξ_k = A_k ĥ_k / (A_k² + ν), ĥ = H(φ0 − μ), ν the per-mode variance of the noise in
-    // φ0 (σ/((2r+1)·level))² for a (2r+1)² box (the standard Wiener filter for white noise).
     const xi = new Float64Array(n);
-    {
-      // (in the model's grids: nothing has been evaluated yet)
-      const [phi0, hat] = model.scratchGrids();
-      model.hartleyTransform(boxSmoothedLog(box, mu, phi0.fill(0), pw), hat);
-      const nu = (sigmaTypical / ((2 * box.r + 1) * level)) ** 2;
-      wienerFilter(powerLawSpectrum(k, spectrum, kc, power), hat, nu, xi);
-    }
     const tau = new Float64Array(m).fill(Math.log(pedestal));
     let evaluations = 0;
     let iterations = 0;
@@ -692,6 +673,23 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
     const setSpectrum = (taper: number | null): void => {
       powerLawSpectrum(k, spectrum, taper, power);
       model.setSpectrum(power);
+    };
+
+    /** The start without the coarse stage: the spectrum's amplitude from the data, then the tapered spectrum
+     *  set and ξ from the data. */
+    const startFromData = (): void => {
+      // amplitude so that the mean of P_k over the modes (the pointwise variance of φ) is the measured variance
+      spectrum.amplitude =
+        options.spectrum?.amplitude ??
+        Math.max(boxLogVariance(box), 0.01) / meanOf(powerLawSpectrum(k, spectrum, null, power));
+      setSpectrum(kc);
+      // ξ: a Wiener-filtered log of the box-smoothed data, so the first stage begins near the large scales of
+      // the answer: ξ_k = A_k ĥ_k / (A_k² + ν), ĥ = H(φ0 − μ), ν the per-mode variance of the noise in φ0
+      // (σ/((2r+1)·level))² for a (2r+1)² box (the standard Wiener filter for white noise). In the model's
+      // grids: nothing has been evaluated yet.
+      const [phi0, hat] = model.scratchGrids();
+      model.hartleyTransform(boxSmoothedLog(box, mu, phi0.fill(0), pw), hat);
+      wienerFilter(model.amplitude, hat, (sigmaTypical / ((2 * box.r + 1) * level)) ** 2, xi);
     };
 
     // The change test of `changeTolerance`: the model image and K ⊛ u at the last check, on the image grid.
@@ -885,7 +883,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
         floor: powerAt(spectrum, 1.5 * kc) * Math.exp(-(1.5 ** 2)),
       });
     } else {
-      setSpectrum(kc);
+      startFromData();
       runStage(
         'diffuse',
         { diffuse: true, compact: false },

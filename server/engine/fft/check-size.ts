@@ -1,3 +1,5 @@
+import type { FftPrecision, RealArray } from './types';
+
 /** Largest grid the FFT layer accepts (2^28 pixels ≈ 2 GiB per float64 image): beyond it typed arrays fail. */
 export const MAX_FFT_PIXELS = 2 ** 28;
 
@@ -14,6 +16,11 @@ export function checkFftSize(width: number, height: number): void {
   if (width * height > MAX_FFT_PIXELS) {
     throw new RangeError(`FFT grid ${width}×${height} is too large: at most ${MAX_FFT_PIXELS} pixels`);
   }
+}
+
+/** A zeroed array of `length` values of the type a transform of this precision takes without conversion. */
+export function realArray(precision: FftPrecision, length: number): RealArray {
+  return precision === 'float32' ? new Float32Array(length) : new Float64Array(length);
 }
 
 /** The grid itself when it is float64 (the transforms without fused paths take no other); `what` names the

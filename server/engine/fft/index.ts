@@ -21,7 +21,7 @@
  */
 export { goodFftSize, isSmooth235 } from './good-size';
 export { createRealFft2d } from './real-fft-2d';
-export { MAX_FFT_PIXELS } from './check-size';
+export { MAX_FFT_PIXELS, realArray } from './check-size';
 export { supportsFloat32 } from './real-fft-2d-float32';
 export { createHartley2d, type Hartley2d } from './hartley-2d';
 export { createConvolver, kernelFromCentredStamp, type Convolver } from './convolver';

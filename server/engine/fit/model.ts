@@ -33,6 +33,7 @@ import {
   type FftPrecision,
   type RealArray,
   type RealFft2d,
+  realArray,
   supportsFloat32,
 } from '../fft';
 import { expArray, shiftExpAdd } from '../math/exp-array';
@@ -181,7 +182,7 @@ export class SeparationModel {
 
   /** A new zeroed padded-grid array of the type the model's transforms take without conversion. */
   newGrid(): RealArray {
-    return this.precision === 'float32' ? new Float32Array(this.n) : new Float64Array(this.n);
+    return realArray(this.precision, this.n);
   }
 
   /**

@@ -8,7 +8,7 @@
  * (generalised least squares for one amplitude; any linear-models text). Local maxima (3 × 3) of F̂/σ_F above
  * `snr` become seeds: u_p ← u_p + F̂(p), i.e. τ_p = log(u_p + F̂(p)).
  */
-import type { Convolver, FftPrecision, RealArray } from '../fft';
+import { realArray, type Convolver, type FftPrecision, type RealArray } from '../fft';
 
 export interface SeedInput {
   width: number;
@@ -40,9 +40,8 @@ export function matchedFilterSeeds(input: SeedInput): Seed[] {
   const { width, height, pw, ph, residual, weight, psf, psfSquared, snr } = input;
   // float32 maps with float32 transforms, and F̂/σ_F in float32 (it only picks the maxima; a seed's F̂ and
   // F̂/σ_F are computed at them): at 4096² the four float64 maps took about 0.7 GiB
-  const Grid = input.precision === 'float32' ? Float32Array : Float64Array;
-  const num = input.scratch?.num.fill(0) ?? new Grid(pw * ph);
-  const den = input.scratch?.den.fill(0) ?? new Grid(pw * ph);
+  const num = input.scratch?.num.fill(0) ?? realArray(input.precision, pw * ph);
+  const den = input.scratch?.den.fill(0) ?? realArray(input.precision, pw * ph);
   for (let y = 0; y < height; y++) {
     for (let x = 0; x < width; x++) {
       const i = y * width + x;

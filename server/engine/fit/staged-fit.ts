@@ -32,7 +32,7 @@
  * one (`activeRadius`); the others keep their values (SeparationModel.fixCompact).
  * Deterministic: no randomness anywhere; the same input and settings give the same numbers.
  */
-import { createConvolver, goodFftSize, type Convolver, type RealArray } from '../fft';
+import { createConvolver, goodFftSize, realArray, type Convolver, type RealArray } from '../fft';
 import { LbfgsWorkspace, minimiseLbfgs } from '../optimise/lbfgs';
 import { psfFwhmPx, psfKernelOnGrid, type Psf } from '../psf';
 import { medianInPlace } from '../noise/median';
@@ -755,9 +755,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       // (allocated once for all stages: a padded float64 grid left to the collector per stage measurably raised
       // the peak; both are float32 with the float32 objective, which computes them from float32 transforms)
       const gradXi = blocks.diffuse ? (gXi ??= model.newGrid()) : null;
-      const gradTau = blocks.compact
-        ? (gTau ??= model.precision === 'float32' ? new Float32Array(m) : new Float64Array(m))
-        : null;
+      const gradTau = blocks.compact ? (gTau ??= realArray(model.precision, m)) : null;
       const unpack = (y: Float64Array): void => {
         if (modes) {
           scatterShift(xi, xi0, d, y, 0, modes);

@@ -181,7 +181,6 @@ export function choosePsf(image: SeparationImage, settings: ResolvedSeparationSe
   );
 }
 
-/** a + shift as float32. */
 /** a += shift in place (the fit's float32 planes become the result's, without copies). */
 const shifted = (a: Float32Array, shift: number): Float32Array => {
   if (shift !== 0) for (let i = 0; i < a.length; i++) a[i] = a[i]! + shift;

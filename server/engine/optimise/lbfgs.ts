@@ -80,11 +80,7 @@ export class LbfgsWorkspace {
 
   /** Buffer `slot` as n float64 entries (contents undefined). */
   float64(slot: number, n: number): Float64Array {
-    const have = this.doubles[slot];
-    if (have && have.length >= n) return have.subarray(0, n);
-    const fresh = new Float64Array(n);
-    this.doubles[slot] = fresh;
-    return fresh;
+    return take(this.doubles, slot, n, Float64Array);
   }
 
   /** Drops every buffer (for the collector; the workspace can be used again). */
@@ -95,12 +91,22 @@ export class LbfgsWorkspace {
 
   /** Buffer `slot` as n float32 entries (contents undefined). */
   float32(slot: number, n: number): Float32Array {
-    const have = this.singles[slot];
-    if (have && have.length >= n) return have.subarray(0, n);
-    const fresh = new Float32Array(n);
-    this.singles[slot] = fresh;
-    return fresh;
+    return take(this.singles, slot, n, Float32Array);
   }
+}
+
+/** The first n entries of pool[slot], replacing it with a new array when it is shorter. */
+function take<T extends Float32Array | Float64Array>(
+  pool: T[],
+  slot: number,
+  n: number,
+  Make: new (length: number) => T,
+): T {
+  const have = pool[slot];
+  if (have && have.length >= n) return have.subarray(0, n) as T;
+  const fresh = new Make(n);
+  pool[slot] = fresh;
+  return fresh;
 }
 
 export type LbfgsReason =

@@ -15,7 +15,7 @@ export interface Hartley2d {
   readonly width: number;
   readonly height: number;
   readonly implementation: string;
-  /** output = H(input); both width·height row-major; they must be different arrays. `shift`: as for
+  /** output = H(input); both width·height row-major (output may be input). `shift`: as for
    *  Convolver.apply (float32 fused path only). */
   transform(input: RealArray, output: RealArray, shift?: number): void;
   dispose(): void;
@@ -45,7 +45,6 @@ class Hartley2dFromFft implements Hartley2d {
     const spectrumWidth = this.fft.spectrumWidth;
     checkLength(input, width * height, 'Hartley input');
     checkLength(output, width * height, 'Hartley output');
-    if (input === output) throw new RangeError('Hartley input and output must be different arrays');
     if (this.fft.fused) {
       this.fft.fused.hartley(input, output, shift);
       return;

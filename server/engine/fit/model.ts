@@ -37,6 +37,7 @@ import {
   supportsFloat32,
 } from '../fft';
 import { expArray, shiftExpAdd } from '../math/exp-array';
+import { KernelArena } from '../simd/kernels';
 import type { ModeGrid } from './spectrum';
 
 export interface NoiseModel {
@@ -114,12 +115,20 @@ export class SeparationModel {
   /** Σ (α τ + q e^(−τ)) over the pixels fixCompact held fixed. */
   private priorFixed = 0;
   // Padded-grid workspaces: four arrays in all (with uPadded), each reused through the evaluation (evaluate).
-  /** s = exp φ of the last evaluation (φ itself is log s: the exponent is clamped to |φ| ≤ 700). */
+  /** s = exp φ of the last evaluation (the exponent clamped to |φ| ≤ 700, or φ − μ to [−87, 88] with the
+   *  SIMD kernels: beyond either, float32 holds 0 or ∞ anyway). */
   readonly s: RealArray;
   /** K ⊛ (s + u) of the last evaluation. */
   readonly modelPadded: RealArray;
   /** φ̂, then ∂L/∂m, Kᵀ ⋆ ∂L/∂m and its product with s, in turn. */
   private readonly work: RealArray;
+  /**
+   * With the float32 transforms: the WASM memory that holds s, modelPadded, work, uPadded, the amplitudes and
+   * one coefficient vector ξ (newCoefficients), so that the objective's element-wise passes run as SIMD kernels
+   * (simd/kernels.ts); null with float64 or where WASM SIMD is missing (plain loops, same arithmetic but exp).
+   */
+  private readonly arena: KernelArena | null;
+  private coefficientsTaken = false;
 
   constructor(setup: ModelSetup) {
     const { kernel, ...rest } = setup;
@@ -137,13 +146,20 @@ export class SeparationModel {
     this.fft = createRealFft2d(this.pw, this.ph, { precision: this.precision });
     this.convolver = createConvolver(this.pw, this.ph, kernel, { fft: this.fft });
     this.hartley = createHartley2d(this.pw, this.ph, { fft: this.fft });
-    this.amplitude = new Float32Array(this.n);
+    const n = this.n;
+    this.arena =
+      this.precision === 'float32'
+        ? KernelArena.create(KernelArena.bytesFor(...Array(5).fill(4 * n), 8 * n))
+        : null;
+    const arena = this.arena;
+    this.amplitude = arena ? arena.float32(n) : new Float32Array(n);
     // float32 workspaces with the float32 transforms (their fused paths read and write them directly, and the
     // transforms round to float32 anyway): half the memory, and no conversion passes.
-    this.uPadded = this.newGrid();
-    this.s = this.newGrid();
-    this.modelPadded = this.newGrid();
-    this.work = this.newGrid();
+    const grid = (): RealArray => (arena ? arena.float32(n) : this.newGrid());
+    this.uPadded = grid();
+    this.s = grid();
+    this.modelPadded = grid();
+    this.work = grid();
     let maxAbs = 0;
     let sum = 0;
     let count = 0;
@@ -178,6 +194,18 @@ export class SeparationModel {
   phiHat<T extends RealArray>(xi: Float64Array, out: T): T {
     for (let i = 0; i < this.n; i++) out[i] = this.amplitude[i]! * xi[i]!;
     return out;
+  }
+
+  /**
+   * A zeroed vector for the coefficients ξ (n values): the first one lives in the model's kernel memory, where
+   * evaluate runs its SIMD passes on it; any other ξ works too, with plain loops.
+   */
+  newCoefficients(): Float64Array {
+    if (this.arena && !this.coefficientsTaken) {
+      this.coefficientsTaken = true;
+      return this.arena.float64(this.n);
+    }
+    return new Float64Array(this.n);
   }
 
   /** A new zeroed padded-grid array of the type the model's transforms take without conversion. */
@@ -325,9 +353,21 @@ export class SeparationModel {
     const s = this.s;
     const model = this.modelPadded;
     const work = this.work;
-    prior += phiHatAndHalfSquares(this.amplitude, xi, work);
+    // the SIMD kernels when ξ and the grids are in the kernel memory (float32 grids, s = e^(φ−μ)·f32(e^μ))
+    const arena = this.arena?.holds(xi) ? this.arena : null;
+    prior += arena
+      ? arena.amplitudeTimes(this.amplitude, xi, work as Float32Array)
+      : phiHatAndHalfSquares(this.amplitude, xi, work);
     this.hartley.transform(work, s, 0); // s = φ − μ for now
-    const totalMean = shiftExpAdd(s, mu, s, uPadded, model) / this.n; // s = exp φ, model = s + u
+    const total = arena
+      ? arena.expScaleAdd(
+          s as Float32Array,
+          Math.fround(Math.exp(mu)),
+          uPadded as Float32Array,
+          model as Float32Array,
+        )
+      : shiftExpAdd(s, mu, s, uPadded, model);
+    const totalMean = total / this.n; // s = exp φ, model = s + u
     this.convolver.apply(model, model, totalMean);
     // likelihood and its derivative r in the model, on the padded grid (0 outside valid image pixels)
     const r = work;
@@ -356,7 +396,14 @@ export class SeparationModel {
         }
       }
     }
-    if (gXi && blocks.diffuse) {
+    if (gXi && blocks.diffuse && arena) {
+      // in the kernel memory throughout (the fused Hartley transform reads its input before it writes)
+      const product = work as Float32Array;
+      gMu = arena.productSum(gt as Float32Array, s as Float32Array, product);
+      this.hartley.transform(product, product, 0);
+      arena.amplitudeGradient(this.amplitude, product, xi);
+      gXi.set(product);
+    } else if (gXi && blocks.diffuse) {
       const product = work;
       gMu = productInto(gt, s, product);
       this.hartley.transform(product, gXi, 0);

@@ -657,7 +657,7 @@ export function stagedFit(input: FitInput, options: FitOptions = {}): FitResult 
       floor: Math.max(0.3 * sigmaTypical, 0.1 * level),
     };
     let spectrum: SpectrumParameters = { amplitude: 1, slope: options.spectrum?.slope ?? 3, turnover };
-    const xi = new Float64Array(n);
+    const xi = model.newCoefficients();
     const tau = new Float64Array(m).fill(Math.log(pedestal));
     let evaluations = 0;
     let iterations = 0;

@@ -4,14 +4,7 @@ import logpdf from '@stdlib/stats-base-dists-invgamma-logpdf';
 import { SeparationModel } from '../../../server/engine/fit/model';
 import { modeWavenumbers, powerLawSpectrum } from '../../../server/engine/fit/spectrum';
 import { psfFromFwhm, psfKernelOnGrid } from '../../../server/engine/psf';
-
-function lcg(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return (s + 0.5) / 2 ** 32;
-  };
-}
+import { lcg } from '../../support/lcg';
 
 function makeModel(kind: 'gaussian' | 'poisson'): SeparationModel {
   const width = 20;

@@ -3,14 +3,7 @@ import { describe, expect, it } from 'vitest';
 import { SeparationModel } from '../../../server/engine/fit/model';
 import { modeWavenumbers, powerLawSpectrum } from '../../../server/engine/fit/spectrum';
 import { psfFromFwhm, psfKernelOnGrid } from '../../../server/engine/psf';
-
-function lcg(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return (s + 0.5) / 2 ** 32;
-  };
-}
+import { lcg } from '../../support/lcg';
 
 function makeModel(
   width: number,

@@ -10,14 +10,7 @@ import { conjugateGradient } from '../../../server/engine/joint/joint-fit';
 import { JointModel, type JointImageTerm } from '../../../server/engine/joint/joint-model';
 import { buildResampler } from '../../../server/engine/joint/resample';
 import { psfFromFwhm, psfKernelOnGrid } from '../../../server/engine/psf';
-
-function lcg(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return (s + 0.5) / 2 ** 32;
-  };
-}
+import { lcg } from '../../support/lcg';
 
 const W = 20;
 const H = 16;

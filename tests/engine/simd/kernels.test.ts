@@ -4,14 +4,7 @@ import { describe, expect, it } from 'vitest';
 import { assembleKernels } from '../../../server/engine/simd/assemble';
 import { KERNELS_WASM_BASE64 } from '../../../server/engine/simd/kernels-binary';
 import { KernelArena } from '../../../server/engine/simd/kernels';
-
-function lcg(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0;
-    return (s + 0.5) / 2 ** 32;
-  };
-}
+import { lcg } from '../../support/lcg';
 
 const N = 4096;
 function arenaFor(floats32: number, floats64 = 0): KernelArena {
